@@ -1,0 +1,47 @@
+// The two run profiles: "dev" for `npm start`, "test" for `npm test`. Each has its own
+// PostgreSQL cluster, fake storage and mailbox under .regolog/<profile>/ (git-ignored),
+// and its own ports, so the test run never touches the demo data.
+import { resolve } from 'node:path';
+
+const PROFILES = {
+	dev: { app: 4310, db: 54310, s3: 54311, smtp: 54312, dbName: 'regolog' },
+	test: { app: 4320, db: 54320, s3: 54321, smtp: 54322, dbName: 'regolog_test' }
+};
+
+export function profile(name) {
+	const p = PROFILES[name];
+	if (!p) throw new Error(`unknown profile "${name}"`);
+	const root = resolve(process.env.REGOLOG_DATA_DIR ?? `.regolog/${name}`);
+	const num = (k, d) => Number(process.env[k] ?? d);
+	return {
+		name,
+		root,
+		appPort: num('PORT', p.app),
+		dbPort: num('REGOLOG_DB_PORT', p.db),
+		s3Port: num('REGOLOG_S3_PORT', p.s3),
+		smtpPort: num('REGOLOG_SMTP_PORT', p.smtp),
+		dbName: process.env.REGOLOG_DB_NAME ?? p.dbName,
+		s3Dir: resolve(root, 's3'),
+		mailDir: resolve(root, 'mail'),
+		logDir: resolve(root, 'logs')
+	};
+}
+
+/** The environment the app, migrations, seed and tests see for a profile. */
+export function appEnv(pr) {
+	return {
+		PORT: String(pr.appPort),
+		HOST: '127.0.0.1',
+		ORIGIN: process.env.ORIGIN ?? `http://127.0.0.1:${pr.appPort}`,
+		REGOLOG_DB_HOST: '127.0.0.1',
+		REGOLOG_DB_PORT: String(pr.dbPort),
+		REGOLOG_DB_NAME: pr.dbName,
+		REGOLOG_DB_USER: process.env.REGOLOG_DB_USER ?? 'regolog',
+		REGOLOG_DB_PASSWORD: process.env.REGOLOG_DB_PASSWORD ?? 'regolog-local',
+		REGOLOG_S3_ENDPOINT: process.env.REGOLOG_S3_ENDPOINT ?? `http://127.0.0.1:${pr.s3Port}`,
+		REGOLOG_S3_BUCKET: process.env.REGOLOG_S3_BUCKET ?? 'regolog-documents',
+		REGOLOG_SMTP_HOST: '127.0.0.1',
+		REGOLOG_SMTP_PORT: String(pr.smtpPort),
+		REGOLOG_MAIL_DIR: pr.mailDir
+	};
+}

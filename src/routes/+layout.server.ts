@@ -1,0 +1,10 @@
+import { navFor } from '$lib/nav';
+import type { LayoutServerLoad } from './$types';
+
+export const load: LayoutServerLoad = async ({ locals }) => {
+	return {
+		user: locals.user,
+		nav: navFor(locals.user?.role ?? null),
+		facility: 'Brightwater Curation Facility'
+	};
+};
