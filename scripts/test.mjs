@@ -13,8 +13,8 @@ const steps = [
 	['migrate and seed', process.execPath, ['--import', 'tsx', 'scripts/setup-db.ts', '--bucket']],
 	['svelte-kit sync', 'npx', ['svelte-kit', 'sync']],
 	['svelte-check', 'npx', ['svelte-check', '--tsconfig', './tsconfig.json', '--fail-on-warnings', '--threshold', 'error']],
-	['vitest', 'npx', ['vitest', 'run']],
 	['build', 'npx', ['vite', 'build', '--logLevel', 'warn']],
+	['vitest', 'npx', ['vitest', 'run']],
 	['playwright', 'npx', ['playwright', 'test']]
 ];
 let failed = null;

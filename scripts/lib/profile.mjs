@@ -13,13 +13,17 @@ export function profile(name) {
 	if (!p) throw new Error(`unknown profile "${name}"`);
 	const root = resolve(process.env.REGOLOG_DATA_DIR ?? `.regolog/${name}`);
 	const num = (k, d) => Number(process.env[k] ?? d);
+	// REGOLOG_PORT_BASE moves every port of the profile at once, so two checkouts can test side by side.
+	const base = process.env.REGOLOG_PORT_BASE ? Number(process.env.REGOLOG_PORT_BASE) : null;
+	const at = (offset, fallback) => (base === null ? fallback : base + offset);
 	return {
 		name,
 		root,
-		appPort: num('PORT', p.app),
-		dbPort: num('REGOLOG_DB_PORT', p.db),
-		s3Port: num('REGOLOG_S3_PORT', p.s3),
-		smtpPort: num('REGOLOG_SMTP_PORT', p.smtp),
+		portBase: base ?? p.db,
+		appPort: num('PORT', at(6, p.app)),
+		dbPort: num('REGOLOG_DB_PORT', at(0, p.db)),
+		s3Port: num('REGOLOG_S3_PORT', at(1, p.s3)),
+		smtpPort: num('REGOLOG_SMTP_PORT', at(2, p.smtp)),
 		dbName: process.env.REGOLOG_DB_NAME ?? p.dbName,
 		s3Dir: resolve(root, 's3'),
 		mailDir: resolve(root, 'mail'),
@@ -42,6 +46,10 @@ export function appEnv(pr) {
 		REGOLOG_S3_BUCKET: process.env.REGOLOG_S3_BUCKET ?? 'regolog-documents',
 		REGOLOG_SMTP_HOST: '127.0.0.1',
 		REGOLOG_SMTP_PORT: String(pr.smtpPort),
-		REGOLOG_MAIL_DIR: pr.mailDir
+		REGOLOG_MAIL_DIR: pr.mailDir,
+		// Ports the tests themselves use: a scratch cluster, a scratch object store, the API test server.
+		REGOLOG_TEST_PORT_SCRATCH_DB: String(pr.portBase + 3),
+		REGOLOG_TEST_PORT_SCRATCH_S3: String(pr.portBase + 4),
+		REGOLOG_API_TEST_PORT: process.env.REGOLOG_API_TEST_PORT ?? String(pr.portBase + 5)
 	};
 }

@@ -1,0 +1,95 @@
+import { json, type RequestEvent } from '@sveltejs/kit';
+import type { ZodType } from 'zod';
+
+/** A failure that the JSON API reports as `{ "error": { "code", "message", "fields"? } }`. */
+export class ApiProblem extends Error {
+	constructor(
+		public status: number,
+		public code: string,
+		message: string,
+		public fields?: Record<string, string>,
+		public extra?: Record<string, unknown>
+	) {
+		super(message);
+	}
+}
+
+export function problemResponse(p: ApiProblem): Response {
+	return json(
+		{ error: { code: p.code, message: p.message, ...(p.fields ? { fields: p.fields } : {}), ...(p.extra ?? {}) } },
+		{ status: p.status }
+	);
+}
+
+export function errorResponse(status: number, code: string, message: string, fields?: Record<string, string>) {
+	return problemResponse(new ApiProblem(status, code, message, fields));
+}
+
+/** Turns zod issues into one message per field path ("children.2.massUg"). */
+export function zodFields(issues: { path: PropertyKey[]; message: string }[]): Record<string, string> {
+	const fields: Record<string, string> = {};
+	for (const i of issues) {
+		const key = i.path.map(String).join('.') || '(body)';
+		if (!fields[key]) fields[key] = i.message;
+	}
+	return fields;
+}
+
+const MAX_JSON_BYTES = 1_000_000;
+
+/** Reads and validates a JSON body; every failure is a 4xx ApiProblem naming what is wrong. */
+export async function readJson<T>(event: RequestEvent, schema: ZodType<T>): Promise<T> {
+	const type = event.request.headers.get('content-type') ?? '';
+	if (!type.toLowerCase().startsWith('application/json')) {
+		throw new ApiProblem(415, 'unsupported_media_type', 'Send the body as JSON with Content-Type: application/json.');
+	}
+	const text = await event.request.text();
+	if (text.length > MAX_JSON_BYTES) throw new ApiProblem(413, 'too_large', `The body is larger than ${MAX_JSON_BYTES} bytes.`);
+	let raw: unknown;
+	try {
+		raw = JSON.parse(text);
+	} catch {
+		throw new ApiProblem(400, 'invalid_json', 'The body is not valid JSON.');
+	}
+	const r = schema.safeParse(raw);
+	if (!r.success) {
+		const fields = zodFields(r.error.issues);
+		const first = Object.entries(fields)[0];
+		throw new ApiProblem(422, 'invalid_input', `Invalid input: ${first[0]}: ${first[1]}`, fields);
+	}
+	return r.data;
+}
+
+/** Validates query parameters with a zod schema of strings. */
+export function readQuery<T>(url: URL, schema: ZodType<T>): T {
+	const raw: Record<string, string> = {};
+	for (const [k, v] of url.searchParams) raw[k] = v;
+	const r = schema.safeParse(raw);
+	if (!r.success) {
+		const fields = zodFields(r.error.issues);
+		const first = Object.entries(fields)[0];
+		throw new ApiProblem(400, 'invalid_query', `Invalid query: ${first[0]}: ${first[1]}`, fields);
+	}
+	return r.data;
+}
+
+/** Recognises the errors of an unreachable database, which the API answers with 503. */
+export function isDbUnavailable(e: unknown): boolean {
+	const name = (e as { name?: string })?.name ?? '';
+	return /^Sequelize(Connection|ConnectionRefused|ConnectionAcquireTimeout|HostNotReachable|ConnectionTimedOut)Error$/.test(name);
+}
+
+type Handler<E extends RequestEvent> = (event: E) => Response | Promise<Response>;
+
+/** Wraps a JSON endpoint so an ApiProblem becomes its documented error response. */
+export function endpoint<E extends RequestEvent>(fn: Handler<E>): Handler<E> {
+	return async (event) => {
+		try {
+			return await fn(event);
+		} catch (e) {
+			if (e instanceof ApiProblem) return problemResponse(e);
+			if (isDbUnavailable(e)) return errorResponse(503, 'unavailable', 'The database is not reachable at the moment; try again shortly.');
+			throw e;
+		}
+	};
+}

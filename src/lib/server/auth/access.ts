@@ -1,0 +1,62 @@
+import type { Role } from './types';
+
+/**
+ * Who may reach each route: the one place where access is decided. The hook in
+ * hooks.server.ts looks up every request's route id here, so a route without an entry is refused
+ * to everybody (deny by default), and the authorization matrix test fails for it.
+ *
+ * 'public' — anybody, signed in or not; 'signed-in' — any active account; otherwise a list of roles.
+ * A rule may differ per HTTP method; `*` is the fallback for methods not named.
+ */
+export type Audience = 'public' | 'signed-in' | readonly Role[];
+export type Rule = Partial<Record<'GET' | 'POST' | 'PUT' | 'PATCH' | 'DELETE' | '*', Audience>>;
+
+export const STAFF = ['admin', 'curator', 'auditor'] as const satisfies readonly Role[];
+export const CURATORS = ['curator', 'admin'] as const satisfies readonly Role[];
+export const ADMINS = ['admin'] as const satisfies readonly Role[];
+export const AUDITORS = ['auditor', 'admin'] as const satisfies readonly Role[];
+
+export const ACCESS: Record<string, Rule> = {
+	'/': { '*': 'public' },
+	'/sign-in': { '*': 'public' },
+	'/sign-out': { '*': 'public' },
+	'/invite/[token]': { '*': 'public' },
+	'/reset': { '*': 'public' },
+	'/reset/[token]': { '*': 'public' },
+	'/account': { '*': 'signed-in' },
+	'/admin/users': { '*': ADMINS },
+	'/admin/labs': { '*': ADMINS },
+	'/api/health': { GET: 'public' },
+	'/api/auth/sign-in': { POST: 'public' },
+	'/api/auth/sign-out': { POST: 'signed-in' },
+	'/api/me': { GET: 'signed-in' },
+	'/api/tokens': { GET: 'signed-in', POST: 'signed-in' },
+	'/api/tokens/[id]': { DELETE: 'signed-in' },
+	'/api/labs': { GET: 'signed-in', POST: ADMINS },
+	'/api/labs/[id]': { GET: 'signed-in' },
+	'/api/users': { GET: ADMINS, POST: ADMINS },
+	'/api/users/[id]': { GET: ADMINS, PATCH: ADMINS }
+};
+
+export function audienceFor(routeId: string | null, method: string): Audience | null {
+	if (!routeId) return null;
+	const rule = ACCESS[routeId];
+	if (!rule) return null;
+	const m = method.toUpperCase() === 'HEAD' ? 'GET' : method.toUpperCase();
+	return rule[m as keyof Rule] ?? rule['*'] ?? null;
+}
+
+export type Decision = 'allow' | 'unauthenticated' | 'forbidden' | 'unknown-route';
+
+export function decide(routeId: string | null, method: string, role: Role | null): Decision {
+	const audience = audienceFor(routeId, method);
+	if (audience === null) return 'unknown-route';
+	if (audience === 'public') return 'allow';
+	if (!role) return 'unauthenticated';
+	if (audience === 'signed-in') return 'allow';
+	return audience.includes(role) ? 'allow' : 'forbidden';
+}
+
+export function hasRole(role: Role | null | undefined, roles: readonly Role[]): boolean {
+	return !!role && roles.includes(role);
+}
