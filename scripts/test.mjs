@@ -1,10 +1,10 @@
 // `npm test`: the same set-up as `npm start` against a fresh test database and fresh fake
 // storage, then svelte-check, vitest, a production build and Playwright in Debian's Chromium.
-import { ensureNodeModules, ensureChromium, startStack, run, log } from './lib/stack.mjs';
+import { ensureNodeModules, ensureTestTools, startStack, run, log } from './lib/stack.mjs';
 
 const t0 = Date.now();
 ensureNodeModules();
-ensureChromium();
+ensureTestTools();
 const stack = await startStack('test', { fresh: true });
 const env = { ...stack.env, NODE_ENV: 'test', REGOLOG_TEST: '1' };
 process.on('SIGINT', () => { stack.stop(); process.exit(130); });

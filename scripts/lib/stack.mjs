@@ -111,10 +111,17 @@ export function buildIsStale() {
 	return src > statSync(stamp).mtimeMs;
 }
 
-export function ensureChromium() {
-	if (existsSync('/usr/bin/chromium')) return;
-	if (process.getuid?.() !== 0) throw new Error('Chromium is missing: install it with sudo apt-get install -y chromium');
-	log('installing Chromium from Debian packages (apt-get install chromium)…');
+/** Installs a Debian package when the program it provides is missing (as root; otherwise says what to install). */
+export function ensureDebianTool(pkg, program) {
+	if (existsSync(program)) return;
+	if (process.getuid?.() !== 0) throw new Error(`${program} is missing: install it with sudo apt-get install -y ${pkg}`);
+	log(`installing ${pkg} from Debian packages (apt-get install ${pkg})…`);
 	execFileSync('apt-get', ['update', '-qq'], { stdio: 'inherit' });
-	execFileSync('apt-get', ['install', '-y', '-qq', 'chromium'], { stdio: 'inherit', env: { ...process.env, DEBIAN_FRONTEND: 'noninteractive' } });
+	execFileSync('apt-get', ['install', '-y', '-qq', pkg], { stdio: 'inherit', env: { ...process.env, DEBIAN_FRONTEND: 'noninteractive' } });
+}
+
+/** The browser for end-to-end tests, and pdftoppm for rendering label PDFs in tests. */
+export function ensureTestTools() {
+	ensureDebianTool('chromium', '/usr/bin/chromium');
+	ensureDebianTool('poppler-utils', '/usr/bin/pdftoppm');
 }
