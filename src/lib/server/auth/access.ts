@@ -35,7 +35,27 @@ export const ACCESS: Record<string, Rule> = {
 	'/api/labs': { GET: 'signed-in', POST: ADMINS },
 	'/api/labs/[id]': { GET: 'signed-in' },
 	'/api/users': { GET: ADMINS, POST: ADMINS },
-	'/api/users/[id]': { GET: ADMINS, PATCH: ADMINS }
+	'/api/users/[id]': { GET: ADMINS, PATCH: ADMINS },
+	// registry
+	'/collections': { GET: STAFF, POST: ADMINS },
+	'/items': { GET: 'signed-in' },
+	'/items/new': { GET: CURATORS, POST: CURATORS },
+	'/items/import': { GET: CURATORS },
+	'/items/[code]': { GET: 'signed-in' },
+	'/items/[code]/split': { GET: CURATORS, POST: CURATORS },
+	'/balances': { GET: STAFF, POST: ADMINS },
+	'/api/collections': { GET: STAFF },
+	'/api/collections/[prefix]': { PATCH: ADMINS },
+	'/api/balances': { GET: STAFF, POST: ADMINS },
+	'/api/balances/[id]': { PATCH: ADMINS },
+	'/api/items': { GET: 'signed-in', POST: CURATORS },
+	'/api/items/export': { GET: 'signed-in' },
+	'/api/items/import': { POST: CURATORS },
+	'/api/items/import/template': { GET: CURATORS },
+	'/api/items/[code]': { GET: 'signed-in' },
+	'/api/items/[code]/splits': { POST: CURATORS },
+	'/api/items/[code]/lineage': { GET: 'signed-in' },
+	'/api/items/[code]/ledger': { GET: 'signed-in' }
 };
 
 export function audienceFor(routeId: string | null, method: string): Audience | null {

@@ -1,6 +1,9 @@
 import { DataTypes, Model, type Sequelize, type InferAttributes, type InferCreationAttributes, type CreationOptional } from 'sequelize';
 import { db } from '../db';
 import type { Role } from '../auth/types';
+import { initRegistry } from './registry';
+
+export * from './registry';
 
 export class Lab extends Model<InferAttributes<Lab>, InferCreationAttributes<Lab>> {
 	declare id: CreationOptional<string>;
@@ -170,6 +173,7 @@ export function models(): Sequelize {
 	const sequelize = db();
 	if (!ready) {
 		init(sequelize);
+		initRegistry(sequelize);
 		ready = true;
 	}
 	return sequelize;

@@ -1,0 +1,225 @@
+import { z } from 'zod';
+import { QueryTypes, type Sequelize, type Transaction } from 'sequelize';
+import { splitBudget, type LossTolerance, type SplitBudget } from '../../domain/budget';
+import { formatCode } from '../../domain/codes';
+import { formatMg } from '../../domain/mass';
+import { ApiProblem } from '../api';
+import { appendTrail } from '../trail';
+import { balanceForWeighing, type BalanceView } from './balances';
+import { findItem, micrograms, shortText, takeSerials, trailActor, type ItemRow, type Who } from './common';
+
+export const MAX_CHILDREN = 200;
+
+export const splitInput = z.strictObject({
+	children: z
+		.array(
+			z.strictObject({
+				massUg: micrograms(),
+				tareUg: micrograms({ allowZero: true }).optional(),
+				description: shortText(2000).optional(),
+				container: shortText(200).optional(),
+				storagePlace: shortText(200).optional()
+			}),
+			{ error: 'must be a list of children, each { "massUg": whole µg }' }
+		)
+		.min(1, 'a split needs at least one child')
+		.max(MAX_CHILDREN, `at most ${MAX_CHILDREN} children in one split`),
+	parentAfterUg: micrograms({ allowZero: true }).optional(),
+	balanceId: z.string({ error: 'must be a balance id' }).optional(),
+	reason: shortText(2000).optional()
+});
+export type SplitRequest = z.infer<typeof splitInput>;
+
+export interface CollectionRules {
+	id: string;
+	prefix: string;
+	loss_tolerance_ug: number | null;
+	loss_tolerance_fraction: string | null;
+}
+
+export function toleranceOf(c: Pick<CollectionRules, 'loss_tolerance_ug' | 'loss_tolerance_fraction'>): LossTolerance {
+	return c.loss_tolerance_ug !== null ? { ug: Number(c.loss_tolerance_ug) } : { fraction: Number(c.loss_tolerance_fraction) };
+}
+
+async function collectionRules(sq: Sequelize, t: Transaction, id: string): Promise<CollectionRules> {
+	const [c] = await sq.query<CollectionRules>('SELECT id, prefix, loss_tolerance_ug, loss_tolerance_fraction FROM collections WHERE id = :id', {
+		type: QueryTypes.SELECT, replacements: { id }, transaction: t
+	});
+	return c;
+}
+
+/** Sends the budget's refusal as the API's answer: 409 when the mass is not there, 422 otherwise. */
+function refuse(budget: SplitBudget, parent: ItemRow, reason: string | undefined): void {
+	const issues = budget.issues.map((i) => ({ code: i.code, severity: i.severity, message: i.message, ...(i.child === undefined ? {} : { child: i.child }) }));
+	const extra = { availableUg: parent.mass_ug, requestedUg: budget.childrenTotalUg, issues };
+	const fields: Record<string, string> = {};
+	const fieldOf = (i: SplitBudget['issues'][number]) =>
+		i.child !== undefined ? `children.${i.child}.massUg` : ['mass-appeared', 'parent-after-negative'].includes(i.code) ? 'parentAfterUg' : i.code === 'loss-above-tolerance' ? 'reason' : 'children';
+	for (const i of budget.issues) fields[fieldOf(i)] ??= i.message;
+	if (budget.issues.some((i) => i.code === 'children-exceed-parent' || i.code === 'parent-not-positive')) {
+		throw new ApiProblem(
+			409,
+			'budget_exceeded',
+			`${parent.code} holds ${formatMg(parent.mass_ug)} (${parent.mass_ug} µg); the children ask for ${formatMg(budget.childrenTotalUg)} (${budget.childrenTotalUg} µg).`,
+			fields,
+			extra
+		);
+	}
+	const rejected = budget.issues.find((i) => i.severity === 'rejected');
+	if (rejected) throw new ApiProblem(422, rejected.code === 'mass-appeared' ? 'mass_appeared' : 'invalid_input', rejected.message, fields, extra);
+	if (budget.verdict === 'needs-reason' && !reason) {
+		throw new ApiProblem(422, 'reason_required', `This split needs a recorded reason: ${budget.issues.map((i) => i.message).join('; ')}.`, { reason: 'is required for this split', ...fields }, extra);
+	}
+}
+
+/**
+ * One split, as one transaction: locks the parent row (SELECT … FOR UPDATE), recomputes the
+ * budget with the domain module (DESIGN §3.3), creates the children with fresh codes, records
+ * their weighings, writes the ledger for parent, children and loss, updates the parent, and
+ * appends the trail event. Two splits of one parent queue on the lock and never spend the same µg.
+ */
+export async function splitItem(sq: Sequelize, who: Who, parentCode: string, input: SplitRequest) {
+	if (input.parentAfterUg !== undefined && input.balanceId === undefined) {
+		throw new ApiProblem(422, 'invalid_input', 'parentAfterUg: a reweighed parent needs the balanceId it was weighed on.', { balanceId: 'is required with parentAfterUg' });
+	}
+	if (input.balanceId === undefined && input.children.some((c) => c.tareUg !== undefined)) {
+		throw new ApiProblem(422, 'invalid_input', 'children: a tare needs the balanceId of the weighing.', { balanceId: 'is required with tareUg' });
+	}
+	return sq.transaction(async (t) => {
+		const parent = await findItem(sq, who, parentCode, { t, lock: true });
+		if (parent.state !== 'stored' || parent.holder_lab_id !== null) {
+			throw new ApiProblem(409, 'not_splittable', `${parent.code} is ${parent.state.replace('_', ' ')}${parent.holder_lab_id ? ` and held by ${parent.holder_name}` : ''}; only material stored at the facility can be split.`, undefined, {
+				availableUg: 0
+			});
+		}
+		const balance: BalanceView | null = input.balanceId === undefined ? null : await balanceForWeighing(sq, t, input.balanceId);
+		const rules = await collectionRules(sq, t, parent.collection_id);
+		const u0 = parent.mass_u_ug ?? 0;
+		const uChild = balance ? balance.netUUg : 0;
+		const budget = splitBudget(
+			{
+				parentBefore: { massUg: parent.mass_ug, u: u0 },
+				children: input.children.map((c) => ({ massUg: c.massUg, u: uChild })),
+				parentAfter: input.parentAfterUg === undefined ? null : { massUg: input.parentAfterUg, u: balance!.netUUg }
+			},
+			{ tolerance: toleranceOf(rules), ...(balance ? { minimumWeightUg: balance.minimumWeightUg } : {}) }
+		);
+		const reason = input.reason || undefined;
+		refuse(budget, parent, reason);
+
+		// uncertainty of the parent's recorded mass after: measured, or propagated (GUM 5.1.2)
+		const childUs = input.children.map(() => uChild);
+		const uAfter = budget.reweighed ? balance!.netUUg : Math.sqrt(u0 * u0 + childUs.reduce((a, u) => a + u * u, 0));
+		const [split] = await sq.query<{ id: string; at: Date }>(
+			`INSERT INTO splits (parent_id, balance_id, parent_before_ug, parent_after_ug, children_total_ug, loss_ug, loss_u_ug, reweighed, verdict, reason, operator_id)
+			 VALUES (:parent, :balance, :p0, :p1, :total, :loss, :lossU, :reweighed, :verdict, :reason, :op) RETURNING id, at`,
+			{
+				type: QueryTypes.SELECT,
+				transaction: t,
+				replacements: {
+					parent: parent.id, balance: balance?.id ?? null, p0: parent.mass_ug, p1: budget.parentAfterUg, total: budget.childrenTotalUg,
+					loss: budget.lossUg, lossU: budget.lossU, reweighed: budget.reweighed, verdict: budget.verdict, reason: reason ?? null, op: who.id
+				}
+			}
+		);
+
+		const first = await takeSerials(sq, t, parent.collection_id, input.children.length);
+		const children = input.children.map((c, i) => ({
+			code: formatCode(rules.prefix, first + i),
+			serial: first + i,
+			massUg: c.massUg,
+			uUg: balance ? uChild : null,
+			tareUg: c.tareUg ?? 0,
+			description: c.description || `Aliquot of ${parent.code}`,
+			container: c.container ?? '',
+			storagePlace: c.storagePlace ?? parent.storage_place,
+			belowMinimum: budget.belowMinimum.includes(i)
+		}));
+		const created = await sq.query<{ id: string; code: string }>(
+			`INSERT INTO items (collection_id, serial, code, parent_id, depth, kind, description, initial_mass_ug, mass_ug, mass_u_ug,
+			                    holder_lab_id, container, storage_place, split_id, created_by)
+			 SELECT :collection, x.serial, x.code, :parent, :depth, 'aliquot', x.description, x.mass, x.mass, x.u, NULL, x.container, x.storage, :split, :op
+			 FROM jsonb_to_recordset(CAST(:rows AS jsonb)) AS x(serial bigint, code text, description text, mass bigint, u double precision, container text, storage text)
+			 RETURNING id, code`,
+			{
+				type: QueryTypes.SELECT,
+				transaction: t,
+				replacements: {
+					collection: parent.collection_id, parent: parent.id, depth: parent.depth + 1, split: split.id, op: who.id,
+					rows: JSON.stringify(children.map((c) => ({ serial: c.serial, code: c.code, description: c.description, mass: c.massUg, u: c.uUg, container: c.container, storage: c.storagePlace })))
+				}
+			}
+		);
+		const idOf = new Map(created.map((r) => [r.code, r.id]));
+
+		const weighingIds = new Map<string, string>();
+		if (balance) {
+			const weighings = children.map((c) => ({
+				item: idOf.get(c.code), purpose: 'split_child', gross: c.massUg + c.tareUg, tare: c.tareUg, net: c.massUg, below: c.belowMinimum, reason: c.belowMinimum ? reason : null
+			}));
+			if (budget.reweighed) weighings.push({ item: parent.id, purpose: 'split_parent_after', gross: budget.parentAfterUg, tare: 0, net: budget.parentAfterUg, below: budget.parentAfterUg < balance.minimumWeightUg, reason: budget.parentAfterUg < balance.minimumWeightUg ? (reason ?? 'parent remainder below the minimum weight') : null });
+			const rows = await sq.query<{ id: string; item_id: string; purpose: string }>(
+				`INSERT INTO weighings (item_id, balance_id, purpose, gross_ug, tare_ug, net_ug, u_ug, expanded_ug, minimum_weight_ug, below_minimum, reason, split_id, operator_id)
+				 SELECT x.item, :balance, x.purpose, x.gross, x.tare, x.net, :u, :U, :min, x.below, x.reason, :split, :op
+				 FROM jsonb_to_recordset(CAST(:rows AS jsonb)) AS x(item uuid, purpose text, gross bigint, tare bigint, net bigint, below boolean, reason text)
+				 RETURNING id, item_id, purpose`,
+				{
+					type: QueryTypes.SELECT,
+					transaction: t,
+					replacements: { balance: balance.id, u: balance.netUUg, U: balance.netExpandedUg, min: balance.minimumWeightUg, split: split.id, op: who.id, rows: JSON.stringify(weighings) }
+				}
+			);
+			for (const r of rows) weighingIds.set(r.purpose === 'split_parent_after' ? 'parent' : r.item_id, r.id);
+		}
+
+		// ledger: the parent gives each child its mass, then the measured loss; each child starts with its mass
+		const [{ next }] = await sq.query<{ next: number }>('SELECT coalesce(max(seq), 0) + 1 AS next FROM ledger_entries WHERE item_id = :id', {
+			type: QueryTypes.SELECT, replacements: { id: parent.id }, transaction: t
+		});
+		const entries: object[] = [];
+		let running = parent.mass_ug;
+		let uRun = u0 * u0;
+		let seq = Number(next);
+		for (const c of children) {
+			running -= c.massUg;
+			uRun += uChild * uChild;
+			entries.push({ item: parent.id, seq: seq++, kind: 'split_out', delta: -c.massUg, after: running, u: Math.sqrt(uRun), counterpart: idOf.get(c.code), weighing: null, note: `to ${c.code}` });
+		}
+		if (budget.reweighed) {
+			running -= budget.lossUg;
+			entries.push({ item: parent.id, seq: seq++, kind: 'split_loss', delta: -budget.lossUg, after: running, u: uAfter, counterpart: null, weighing: weighingIds.get('parent') ?? null, note: reason ?? '' });
+		}
+		for (const c of children) {
+			const id = idOf.get(c.code)!;
+			entries.push({ item: id, seq: 1, kind: 'split_in', delta: c.massUg, after: c.massUg, u: c.uUg, counterpart: parent.id, weighing: weighingIds.get(id) ?? null, note: `from ${parent.code}` });
+		}
+		if (running !== budget.parentAfterUg) throw new Error(`ledger of ${parent.code} does not close: ${running} ≠ ${budget.parentAfterUg}`);
+		await sq.query(
+			`INSERT INTO ledger_entries (item_id, seq, kind, delta_ug, balance_after_ug, u_after_ug, split_id, weighing_id, counterpart_id, note, actor_id)
+			 SELECT x.item, x.seq, x.kind, x.delta, x.after, x.u, :split, x.weighing, x.counterpart, x.note, :op
+			 FROM jsonb_to_recordset(CAST(:rows AS jsonb)) AS x(item uuid, seq int, kind text, delta bigint, after bigint, u double precision, weighing uuid, counterpart uuid, note text)`,
+			{ transaction: t, replacements: { split: split.id, op: who.id, rows: JSON.stringify(entries) } }
+		);
+		await sq.query('UPDATE items SET mass_ug = :mass, mass_u_ug = :u, updated_at = now() WHERE id = :id', {
+			transaction: t, replacements: { id: parent.id, mass: budget.parentAfterUg, u: parent.mass_u_ug === null && !balance ? null : uAfter }
+		});
+
+		const result = {
+			splitId: split.id,
+			parentCode: parent.code,
+			parentBeforeUg: parent.mass_ug,
+			parentAfterUg: budget.parentAfterUg,
+			childrenTotalUg: budget.childrenTotalUg,
+			lossUg: budget.lossUg,
+			lossUUg: budget.lossU,
+			reweighed: budget.reweighed,
+			verdict: budget.verdict,
+			reason: reason ?? null,
+			issues: budget.issues.map((i) => i.message),
+			balance: balance ? { id: balance.id, name: balance.name } : null,
+			children: children.map((c) => ({ code: c.code, massUg: c.massUg, uUg: c.uUg, belowMinimum: c.belowMinimum }))
+		};
+		await appendTrail(sq, t, { actor: trailActor(who), action: 'item.split', subjectType: 'item', subjectId: parent.id, before: { code: parent.code, massUg: parent.mass_ug }, after: result });
+		return result;
+	});
+}
