@@ -35,7 +35,9 @@ export const ACCESS: Record<string, Rule> = {
 	'/api/labs': { GET: 'signed-in', POST: ADMINS },
 	'/api/labs/[id]': { GET: 'signed-in' },
 	'/api/users': { GET: ADMINS, POST: ADMINS },
-	'/api/users/[id]': { GET: ADMINS, PATCH: ADMINS }
+	'/api/users/[id]': { GET: ADMINS, PATCH: ADMINS },
+	// trail
+	'/api/trail/verify': { GET: AUDITORS }
 };
 
 export function audienceFor(routeId: string | null, method: string): Audience | null {
