@@ -55,7 +55,9 @@ export const ACCESS: Record<string, Rule> = {
 	'/api/items/[code]': { GET: 'signed-in' },
 	'/api/items/[code]/splits': { POST: CURATORS },
 	'/api/items/[code]/lineage': { GET: 'signed-in' },
-	'/api/items/[code]/ledger': { GET: 'signed-in' }
+	'/api/items/[code]/ledger': { GET: 'signed-in' },
+	// trail
+	'/api/trail/verify': { GET: AUDITORS }
 };
 
 export function audienceFor(routeId: string | null, method: string): Audience | null {
