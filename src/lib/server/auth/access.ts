@@ -35,7 +35,13 @@ export const ACCESS: Record<string, Rule> = {
 	'/api/labs': { GET: 'signed-in', POST: ADMINS },
 	'/api/labs/[id]': { GET: 'signed-in' },
 	'/api/users': { GET: ADMINS, POST: ADMINS },
-	'/api/users/[id]': { GET: ADMINS, PATCH: ADMINS }
+	'/api/users/[id]': { GET: ADMINS, PATCH: ADMINS },
+	// labels
+	'/scan': { GET: 'signed-in' },
+	'/labels': { GET: 'signed-in' },
+	'/api/items/[code]/label': { GET: 'signed-in' },
+	'/api/labels': { POST: 'signed-in' },
+	'/api/scan/[code]': { GET: 'signed-in' }
 };
 
 export function audienceFor(routeId: string | null, method: string): Audience | null {
