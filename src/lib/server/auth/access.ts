@@ -57,7 +57,13 @@ export const ACCESS: Record<string, Rule> = {
 	'/api/items/[code]/lineage': { GET: 'signed-in' },
 	'/api/items/[code]/ledger': { GET: 'signed-in' },
 	// trail
-	'/api/trail/verify': { GET: AUDITORS }
+	'/api/trail/verify': { GET: AUDITORS },
+	// labels
+	'/scan': { GET: 'signed-in' },
+	'/labels': { GET: 'signed-in' },
+	'/api/items/[code]/label': { GET: 'signed-in' },
+	'/api/labels': { POST: 'signed-in' },
+	'/api/scan/[code]': { GET: 'signed-in' }
 };
 
 export function audienceFor(routeId: string | null, method: string): Audience | null {
