@@ -67,6 +67,7 @@ describe('CSV import of parent specimens', () => {
 	});
 
 	it('refuses unreadable files, unknown or missing columns and other content types, changing nothing', async () => {
+		const lab = await signedIn(DEMO.fennick);
 		await unchanged(async () => {
 			expect((await csv('preview', 'collection,mass_mg,description\n"HLF,1.0,unclosed')).body.error.code).toBe('invalid_csv');
 			const cols = await csv('preview', 'collection,mass,description,colour\nHLF,1,x,red');
@@ -75,7 +76,6 @@ describe('CSV import of parent specimens', () => {
 			expect((await csv('preview', header + '\n')).body.error.code).toBe('empty_file');
 			expect((await curator.request('POST', '/api/items/import?mode=preview', '{}', { 'content-type': 'application/json' })).status).toBe(415);
 			expect((await curator.request('POST', '/api/items/import?mode=later', header, { 'content-type': 'text/csv' })).status).toBe(400);
-			const lab = await signedIn(DEMO.fennick);
 			expect((await lab.request('POST', '/api/items/import?mode=commit', header + '\nHLF,1.000,x,,,,', { 'content-type': 'text/csv' })).status).toBe(403);
 		});
 	});
