@@ -142,7 +142,8 @@ COMMIT;
 		previous = rows.map((r) => r.id);
 	}
 	await db.query(`UPDATE collections SET next_serial = $1 WHERE prefix = 'BNL'`, [serial]);
-	await db.query('ANALYZE items');
+	// the steady state autovacuum keeps: statistics and visibility map up to date
+	await db.query('VACUUM ANALYZE items');
 	const leaf = code(serial - 1);
 	const timeLineage = async (target, runs) => {
 		const times = [];

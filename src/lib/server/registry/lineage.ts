@@ -14,29 +14,31 @@ export async function lineageJson(sq: Sequelize, who: Who, codeText: string, dep
 	const lab = labFilter(who);
 	const [row] = await sq.query<{ body: string }>(
 		`WITH RECURSIVE up AS (
-			SELECT id, parent_id, 0 AS level FROM items WHERE id = :id
+			SELECT id, parent_id, code, serial, kind, state, mass_ug, initial_mass_ug, holder_lab_id, 0 AS level FROM items WHERE id = :id
 			UNION ALL
-			SELECT p.id, p.parent_id, up.level - 1 FROM items p JOIN up ON p.id = up.parent_id
+			SELECT p.id, p.parent_id, p.code, p.serial, p.kind, p.state, p.mass_ug, p.initial_mass_ug, p.holder_lab_id, up.level - 1
+			FROM items p JOIN up ON p.id = up.parent_id
 		), down AS (
-			SELECT id, 0 AS level FROM items WHERE id = :id
+			SELECT id, code, NULL::text AS parent_code, serial, kind, state, mass_ug, initial_mass_ug, holder_lab_id, 0 AS level FROM items WHERE id = :id
 			UNION ALL
-			SELECT c.id, down.level + 1 FROM items c JOIN down ON c.parent_id = down.id
+			SELECT c.id, c.code, down.code, c.serial, c.kind, c.state, c.mass_ug, c.initial_mass_ug, c.holder_lab_id, down.level + 1
+			FROM items c JOIN down ON c.parent_id = down.id
 			WHERE :depth::int IS NULL OR down.level < :depth::int
+		), kids AS (
+			SELECT parent_code, count(*) AS n FROM down WHERE level > 0 GROUP BY parent_code
 		), tree AS (
-			SELECT 'a' AS side, id, level FROM up WHERE level < 0
+			SELECT 'a' AS side, u.id, u.code, pa.code AS parent_code, u.serial, u.kind, u.state, u.mass_ug, u.initial_mass_ug, u.holder_lab_id, u.level,
+			       (SELECT count(*) FROM items k WHERE k.parent_id = u.id) AS children
+			FROM up u LEFT JOIN items pa ON pa.id = u.parent_id WHERE u.level < 0
 			UNION ALL
-			SELECT 'd', id, level FROM down WHERE level > 0
+			SELECT 'd', d.id, d.code, d.parent_code, d.serial, d.kind, d.state, d.mass_ug, d.initial_mass_ug, d.holder_lab_id, d.level,
+			       CASE WHEN d.level = :depth::int THEN (SELECT count(*) FROM items k WHERE k.parent_id = d.id) ELSE coalesce(kids.n, 0) END
+			FROM down d LEFT JOIN kids ON kids.parent_code = d.code WHERE d.level > 0
 		), rows AS (
-			SELECT tree.side, tree.level, i.serial, i.id, i.parent_id, i.holder_lab_id,
-			       json_build_object('code', i.code, 'parentCode', p.code, 'level', tree.level, 'kind', i.kind, 'state', i.state,
-			                         'massUg', i.mass_ug, 'initialMassUg', i.initial_mass_ug, 'holder', coalesce(l.name, 'Facility'),
-			                         'children', CASE WHEN tree.level = :depth::int OR tree.side = 'a'
-			                                          THEN (SELECT count(*) FROM items k WHERE k.parent_id = i.id)
-			                                          ELSE coalesce(kids.n, 0) END) AS entry
-			FROM tree JOIN items i ON i.id = tree.id
-			LEFT JOIN items p ON p.id = i.parent_id
-			LEFT JOIN labs l ON l.id = i.holder_lab_id
-			LEFT JOIN (SELECT i2.parent_id, count(*) AS n FROM down JOIN items i2 ON i2.id = down.id GROUP BY i2.parent_id) kids ON kids.parent_id = i.id
+			SELECT t.side, t.level, t.serial, t.holder_lab_id,
+			       json_build_object('code', t.code, 'parentCode', t.parent_code, 'level', t.level, 'kind', t.kind, 'state', t.state,
+			                         'massUg', t.mass_ug, 'initialMassUg', t.initial_mass_ug, 'holder', coalesce(l.name, 'Facility'), 'children', t.children) AS entry
+			FROM tree t LEFT JOIN labs l ON l.id = t.holder_lab_id
 		)
 		SELECT json_build_object(
 			'code', CAST(:code AS text),
