@@ -11,7 +11,7 @@ async function signIn(page: Page, email: string) {
 test('a curator splits a demo specimen into three aliquots and sees lineage and ledger update', async ({ page }) => {
 	await signIn(page, 'curator@brightwater.example');
 	await page.goto('/items');
-	await page.getByLabel('Code or text').fill('Fragment F1');
+	await page.getByLabel('Code or text').fill('broken face exposing matrix');
 	const link = page.getByRole('table').getByRole('link', { name: /^HLF-\d{5}-[0-9A-Z]$/ }).first();
 	await expect(page.getByRole('table').getByRole('row')).toHaveCount(2);
 	const code = (await link.textContent())!.trim();
