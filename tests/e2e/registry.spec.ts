@@ -75,3 +75,41 @@ test('a mistyped code in the items search says so instead of showing another ite
 	await expect(page.getByRole('alert')).toContainText('check character');
 	await expect(page.getByRole('table').getByRole('link')).toHaveCount(0);
 });
+
+test('a curator imports specimens from CSV: per-row errors first, then all rows with a progress bar', async ({ page }) => {
+	await signIn(page, 'curator@brightwater.example');
+	await page.goto('/items/import');
+	const header = 'collection,mass_mg,description,container,storage_place';
+	const good = Array.from({ length: 30 }, (_, i) => `HLF,${(2 + i / 100).toFixed(3)},e2e import fragment ${i + 1},jar,C-7`);
+	const file = (rows: string[]) => ({ name: 'specimens.csv', mimeType: 'text/csv', buffer: Buffer.from([header, ...rows].join('\n')) });
+
+	await page.getByLabel('CSV file').setInputFiles(file([...good.slice(0, 2), 'HLF,1.2345,too fine,jar,C-7']));
+	const preview = page.getByTestId('import-preview');
+	await expect(preview.locator('tbody tr')).toHaveCount(3);
+	await expect(preview.locator('tbody tr').nth(2)).toContainText('more decimals than a microgram');
+	await expect(page.getByRole('button', { name: 'Import all 3 rows' })).toBeDisabled();
+
+	await page.getByLabel('CSV file').setInputFiles(file(good));
+	await expect(page.getByText('30 of 30 rows are ready')).toBeVisible();
+	await page.getByRole('button', { name: 'Import all 30 rows' }).click();
+	await expect(page.getByRole('progressbar', { name: 'Rows imported' })).toHaveAttribute('value', '30');
+	await expect(page.getByText(/Imported 30 specimens/)).toBeVisible();
+
+	await page.goto('/items?q=e2e%20import%20fragment');
+	await expect(page.getByRole('table').getByRole('link')).toHaveCount(30);
+});
+
+test('an administrator changes a collection rule and sees it saved', async ({ page }) => {
+	await signIn(page, 'admin@brightwater.example');
+	await page.goto('/collections');
+	const ice = page.getByRole('region', { name: /ICE/ });
+	await ice.getByText('Change the rules of ICE').click();
+	await ice.getByLabel('Pristine reserve (%)').fill('150');
+	await ice.getByRole('button', { name: 'Save the rules' }).click();
+	await expect(ice.getByRole('alert')).toContainText('Check the marked rules');
+	await ice.getByLabel('Pristine reserve (%)').fill('30');
+	await ice.getByRole('button', { name: 'Save the rules' }).click();
+	await expect(ice.getByRole('status')).toContainText('Rules saved');
+	await page.reload();
+	await expect(page.getByRole('region', { name: /ICE/ })).toContainText('30.0 % kept back');
+});
