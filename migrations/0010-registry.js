@@ -68,7 +68,8 @@ export async function up({ sequelize }) {
 				(kind = 'blank' AND (parent_id IS NULL) = (depth = 0))
 			)
 		);
-		CREATE INDEX items_parent_idx ON items (parent_id);
+		-- the lineage walks the tree by parent; the included columns let it read the index alone
+		CREATE INDEX items_parent_idx ON items (parent_id) INCLUDE (id, code, serial, kind, state, mass_ug, initial_mass_ug, holder_lab_id);
 		CREATE INDEX items_holder_idx ON items (holder_lab_id);
 		CREATE INDEX items_collection_serial_idx ON items (collection_id, serial);
 		CREATE INDEX items_mass_idx ON items (mass_ug, id);

@@ -99,8 +99,9 @@ async function seedTarnwick(sq: Sequelize, who: Who, um: string, mb: string) {
 	// chamber B: six first-level aliquots, two of them split once more
 	const bLevel1 = await split(sq, who, b.code, Array.from({ length: 6 }, () => rnd(12_000, 30_000)), mb, 4);
 	for (const code of bLevel1.slice(0, 2)) await split(sq, who, code, [rnd(3_000, 5_000), rnd(3_000, 5_000), rnd(3_000, 5_000)], mb, 2);
-	await placeOnLoan(sq, level2[0], 'Fennick Organics Lab');
-	await placeOnLoan(sq, level2[1], 'Fennick Organics Lab');
+	// aliquots that were not split further go out on loan
+	await placeOnLoan(sq, level2[6], 'Fennick Organics Lab');
+	await placeOnLoan(sq, level2[7], 'Fennick Organics Lab');
 	await placeOnLoan(sq, bLevel1[5], 'Marrow Isotope Group');
 }
 

@@ -1,3 +1,4 @@
+import { randomUUID } from 'node:crypto';
 import { z } from 'zod';
 import { QueryTypes, type Sequelize, type Transaction } from 'sequelize';
 import { splitBudget, type LossTolerance, type SplitBudget } from '../../domain/budget';
@@ -41,10 +42,14 @@ export function toleranceOf(c: Pick<CollectionRules, 'loss_tolerance_ug' | 'loss
 	return c.loss_tolerance_ug !== null ? { ug: Number(c.loss_tolerance_ug) } : { fraction: Number(c.loss_tolerance_fraction) };
 }
 
-async function collectionRules(sq: Sequelize, t: Transaction, id: string): Promise<CollectionRules> {
-	const [c] = await sq.query<CollectionRules>('SELECT id, prefix, loss_tolerance_ug, loss_tolerance_fraction FROM collections WHERE id = :id', {
-		type: QueryTypes.SELECT, replacements: { id }, transaction: t
-	});
+/** The parent's collection rules and the parent's next ledger number (stable: the parent is locked). */
+async function rulesAndSeq(sq: Sequelize, t: Transaction, parent: ItemRow): Promise<CollectionRules & { next_seq: number }> {
+	const [c] = await sq.query<CollectionRules & { next_seq: number }>(
+		`SELECT id, prefix, loss_tolerance_ug, loss_tolerance_fraction,
+		        (SELECT coalesce(max(seq), 0) + 1 FROM ledger_entries WHERE item_id = :parent)::int AS next_seq
+		 FROM collections WHERE id = :id`,
+		{ type: QueryTypes.SELECT, replacements: { id: parent.collection_id, parent: parent.id }, transaction: t }
+	);
 	return c;
 }
 
@@ -93,7 +98,7 @@ export async function splitItem(sq: Sequelize, who: Who, parentCode: string, inp
 			});
 		}
 		const balance: BalanceView | null = input.balanceId === undefined ? null : await balanceForWeighing(sq, t, input.balanceId);
-		const rules = await collectionRules(sq, t, parent.collection_id);
+		const rules = await rulesAndSeq(sq, t, parent);
 		const u0 = parent.mass_u_ug ?? 0;
 		const uChild = balance ? balance.netUUg : 0;
 		const budget = splitBudget(
@@ -108,23 +113,13 @@ export async function splitItem(sq: Sequelize, who: Who, parentCode: string, inp
 		refuse(budget, parent, reason);
 
 		// uncertainty of the parent's recorded mass after: measured, or propagated (GUM 5.1.2)
-		const childUs = input.children.map(() => uChild);
-		const uAfter = budget.reweighed ? balance!.netUUg : Math.sqrt(u0 * u0 + childUs.reduce((a, u) => a + u * u, 0));
-		const [split] = await sq.query<{ id: string; at: Date }>(
-			`INSERT INTO splits (parent_id, balance_id, parent_before_ug, parent_after_ug, children_total_ug, loss_ug, loss_u_ug, reweighed, verdict, reason, operator_id)
-			 VALUES (:parent, :balance, :p0, :p1, :total, :loss, :lossU, :reweighed, :verdict, :reason, :op) RETURNING id, at`,
-			{
-				type: QueryTypes.SELECT,
-				transaction: t,
-				replacements: {
-					parent: parent.id, balance: balance?.id ?? null, p0: parent.mass_ug, p1: budget.parentAfterUg, total: budget.childrenTotalUg,
-					loss: budget.lossUg, lossU: budget.lossU, reweighed: budget.reweighed, verdict: budget.verdict, reason: reason ?? null, op: who.id
-				}
-			}
-		);
+		const uAfter = budget.reweighed ? balance!.netUUg : Math.sqrt(u0 * u0 + input.children.length * uChild * uChild);
+		const splitId = randomUUID();
 
+		// From here to the commit the collection's serial counter is locked: everything is written in one statement.
 		const first = await takeSerials(sq, t, parent.collection_id, input.children.length);
 		const children = input.children.map((c, i) => ({
+			id: randomUUID(),
 			code: formatCode(rules.prefix, first + i),
 			serial: first + i,
 			massUg: c.massUg,
@@ -133,79 +128,77 @@ export async function splitItem(sq: Sequelize, who: Who, parentCode: string, inp
 			description: c.description || `Aliquot of ${parent.code}`,
 			container: c.container ?? '',
 			storagePlace: c.storagePlace ?? parent.storage_place,
-			belowMinimum: budget.belowMinimum.includes(i)
+			belowMinimum: budget.belowMinimum.includes(i),
+			weighingId: balance ? randomUUID() : null
 		}));
-		const created = await sq.query<{ id: string; code: string }>(
-			`INSERT INTO items (collection_id, serial, code, parent_id, depth, kind, description, initial_mass_ug, mass_ug, mass_u_ug,
-			                    holder_lab_id, container, storage_place, split_id, created_by)
-			 SELECT :collection, x.serial, x.code, :parent, :depth, 'aliquot', x.description, x.mass, x.mass, x.u, NULL, x.container, x.storage, :split, :op
-			 FROM jsonb_to_recordset(CAST(:rows AS jsonb)) AS x(serial bigint, code text, description text, mass bigint, u double precision, container text, storage text)
-			 RETURNING id, code`,
+		const parentWeighingId = balance && budget.reweighed ? randomUUID() : null;
+		interface WeighingRow { id: string | null; item: string; purpose: string; gross: number; tare: number; net: number; below: boolean; reason: string | null | undefined }
+		const weighings: WeighingRow[] = balance
+			? children.map((c) => ({ id: c.weighingId, item: c.id, purpose: 'split_child', gross: c.massUg + c.tareUg, tare: c.tareUg, net: c.massUg, below: c.belowMinimum, reason: c.belowMinimum ? reason : null }))
+			: [];
+		if (balance && parentWeighingId) {
+			const below = budget.parentAfterUg < balance.minimumWeightUg;
+			weighings.push({ id: parentWeighingId, item: parent.id, purpose: 'split_parent_after', gross: budget.parentAfterUg, tare: 0, net: budget.parentAfterUg, below, reason: below ? (reason ?? 'parent remainder below the minimum weight') : null });
+		}
+
+		// ledger: the parent gives each child its mass, then the measured loss; each child starts with its mass
+		const entries: object[] = [];
+		let running = parent.mass_ug;
+		let uRun = u0 * u0;
+		let seq = rules.next_seq;
+		for (const c of children) {
+			running -= c.massUg;
+			uRun += uChild * uChild;
+			entries.push({ item: parent.id, seq: seq++, kind: 'split_out', delta: -c.massUg, after: running, u: Math.sqrt(uRun), counterpart: c.id, weighing: null, note: `to ${c.code}` });
+		}
+		if (budget.reweighed) {
+			running -= budget.lossUg;
+			entries.push({ item: parent.id, seq: seq++, kind: 'split_loss', delta: -budget.lossUg, after: running, u: uAfter, counterpart: null, weighing: parentWeighingId, note: reason ?? '' });
+		}
+		for (const c of children) {
+			entries.push({ item: c.id, seq: 1, kind: 'split_in', delta: c.massUg, after: c.massUg, u: c.uUg, counterpart: parent.id, weighing: c.weighingId, note: `from ${parent.code}` });
+		}
+		if (running !== budget.parentAfterUg) throw new Error(`ledger of ${parent.code} does not close: ${running} ≠ ${budget.parentAfterUg}`);
+
+		const [{ at }] = await sq.query<{ at: Date }>(
+			`WITH s AS (
+				INSERT INTO splits (id, parent_id, balance_id, parent_before_ug, parent_after_ug, children_total_ug, loss_ug, loss_u_ug, reweighed, verdict, reason, operator_id)
+				VALUES (:split, :parent, :balance, :p0, :p1, :total, :loss, :lossU, :reweighed, :verdict, :reason, :op) RETURNING at
+			), i AS (
+				INSERT INTO items (id, collection_id, serial, code, parent_id, depth, kind, description, initial_mass_ug, mass_ug, mass_u_ug,
+				                   holder_lab_id, container, storage_place, split_id, created_by)
+				SELECT x.id, :collection, x.serial, x.code, :parent, :depth, 'aliquot', x.description, x.mass, x.mass, x.u, NULL, x.container, x.storage, :split, :op
+				FROM jsonb_to_recordset(CAST(:children AS jsonb)) AS x(id uuid, serial bigint, code text, description text, mass bigint, u double precision, container text, storage text)
+			), w AS (
+				INSERT INTO weighings (id, item_id, balance_id, purpose, gross_ug, tare_ug, net_ug, u_ug, expanded_ug, minimum_weight_ug, below_minimum, reason, split_id, operator_id)
+				SELECT x.id, x.item, :balance, x.purpose, x.gross, x.tare, x.net, :u, :U, :min, x.below, x.reason, :split, :op
+				FROM jsonb_to_recordset(CAST(:weighings AS jsonb)) AS x(id uuid, item uuid, purpose text, gross bigint, tare bigint, net bigint, below boolean, reason text)
+			), l AS (
+				INSERT INTO ledger_entries (item_id, seq, kind, delta_ug, balance_after_ug, u_after_ug, split_id, weighing_id, counterpart_id, note, actor_id)
+				SELECT x.item, x.seq, x.kind, x.delta, x.after, x.u, :split, x.weighing, x.counterpart, x.note, :op
+				FROM jsonb_to_recordset(CAST(:entries AS jsonb)) AS x(item uuid, seq int, kind text, delta bigint, after bigint, u double precision, weighing uuid, counterpart uuid, note text)
+			), p AS (
+				UPDATE items SET mass_ug = :p1, mass_u_ug = :uAfter, updated_at = now() WHERE id = :parent
+			)
+			SELECT at FROM s`,
 			{
 				type: QueryTypes.SELECT,
 				transaction: t,
 				replacements: {
-					collection: parent.collection_id, parent: parent.id, depth: parent.depth + 1, split: split.id, op: who.id,
-					rows: JSON.stringify(children.map((c) => ({ serial: c.serial, code: c.code, description: c.description, mass: c.massUg, u: c.uUg, container: c.container, storage: c.storagePlace })))
+					split: splitId, parent: parent.id, balance: balance?.id ?? null, p0: parent.mass_ug, p1: budget.parentAfterUg, total: budget.childrenTotalUg,
+					loss: budget.lossUg, lossU: budget.lossU, reweighed: budget.reweighed, verdict: budget.verdict, reason: reason ?? null, op: who.id,
+					collection: parent.collection_id, depth: parent.depth + 1, u: balance?.netUUg ?? 0, U: balance?.netExpandedUg ?? 0, min: balance?.minimumWeightUg ?? 0,
+					uAfter: parent.mass_u_ug === null && !balance ? null : uAfter,
+					children: JSON.stringify(children.map((c) => ({ id: c.id, serial: c.serial, code: c.code, description: c.description, mass: c.massUg, u: c.uUg, container: c.container, storage: c.storagePlace }))),
+					weighings: JSON.stringify(weighings),
+					entries: JSON.stringify(entries)
 				}
 			}
 		);
-		const idOf = new Map(created.map((r) => [r.code, r.id]));
-
-		const weighingIds = new Map<string, string>();
-		if (balance) {
-			const weighings = children.map((c) => ({
-				item: idOf.get(c.code), purpose: 'split_child', gross: c.massUg + c.tareUg, tare: c.tareUg, net: c.massUg, below: c.belowMinimum, reason: c.belowMinimum ? reason : null
-			}));
-			if (budget.reweighed) weighings.push({ item: parent.id, purpose: 'split_parent_after', gross: budget.parentAfterUg, tare: 0, net: budget.parentAfterUg, below: budget.parentAfterUg < balance.minimumWeightUg, reason: budget.parentAfterUg < balance.minimumWeightUg ? (reason ?? 'parent remainder below the minimum weight') : null });
-			const rows = await sq.query<{ id: string; item_id: string; purpose: string }>(
-				`INSERT INTO weighings (item_id, balance_id, purpose, gross_ug, tare_ug, net_ug, u_ug, expanded_ug, minimum_weight_ug, below_minimum, reason, split_id, operator_id)
-				 SELECT x.item, :balance, x.purpose, x.gross, x.tare, x.net, :u, :U, :min, x.below, x.reason, :split, :op
-				 FROM jsonb_to_recordset(CAST(:rows AS jsonb)) AS x(item uuid, purpose text, gross bigint, tare bigint, net bigint, below boolean, reason text)
-				 RETURNING id, item_id, purpose`,
-				{
-					type: QueryTypes.SELECT,
-					transaction: t,
-					replacements: { balance: balance.id, u: balance.netUUg, U: balance.netExpandedUg, min: balance.minimumWeightUg, split: split.id, op: who.id, rows: JSON.stringify(weighings) }
-				}
-			);
-			for (const r of rows) weighingIds.set(r.purpose === 'split_parent_after' ? 'parent' : r.item_id, r.id);
-		}
-
-		// ledger: the parent gives each child its mass, then the measured loss; each child starts with its mass
-		const [{ next }] = await sq.query<{ next: number }>('SELECT coalesce(max(seq), 0) + 1 AS next FROM ledger_entries WHERE item_id = :id', {
-			type: QueryTypes.SELECT, replacements: { id: parent.id }, transaction: t
-		});
-		const entries: object[] = [];
-		let running = parent.mass_ug;
-		let uRun = u0 * u0;
-		let seq = Number(next);
-		for (const c of children) {
-			running -= c.massUg;
-			uRun += uChild * uChild;
-			entries.push({ item: parent.id, seq: seq++, kind: 'split_out', delta: -c.massUg, after: running, u: Math.sqrt(uRun), counterpart: idOf.get(c.code), weighing: null, note: `to ${c.code}` });
-		}
-		if (budget.reweighed) {
-			running -= budget.lossUg;
-			entries.push({ item: parent.id, seq: seq++, kind: 'split_loss', delta: -budget.lossUg, after: running, u: uAfter, counterpart: null, weighing: weighingIds.get('parent') ?? null, note: reason ?? '' });
-		}
-		for (const c of children) {
-			const id = idOf.get(c.code)!;
-			entries.push({ item: id, seq: 1, kind: 'split_in', delta: c.massUg, after: c.massUg, u: c.uUg, counterpart: parent.id, weighing: weighingIds.get(id) ?? null, note: `from ${parent.code}` });
-		}
-		if (running !== budget.parentAfterUg) throw new Error(`ledger of ${parent.code} does not close: ${running} ≠ ${budget.parentAfterUg}`);
-		await sq.query(
-			`INSERT INTO ledger_entries (item_id, seq, kind, delta_ug, balance_after_ug, u_after_ug, split_id, weighing_id, counterpart_id, note, actor_id)
-			 SELECT x.item, x.seq, x.kind, x.delta, x.after, x.u, :split, x.weighing, x.counterpart, x.note, :op
-			 FROM jsonb_to_recordset(CAST(:rows AS jsonb)) AS x(item uuid, seq int, kind text, delta bigint, after bigint, u double precision, weighing uuid, counterpart uuid, note text)`,
-			{ transaction: t, replacements: { split: split.id, op: who.id, rows: JSON.stringify(entries) } }
-		);
-		await sq.query('UPDATE items SET mass_ug = :mass, mass_u_ug = :u, updated_at = now() WHERE id = :id', {
-			transaction: t, replacements: { id: parent.id, mass: budget.parentAfterUg, u: parent.mass_u_ug === null && !balance ? null : uAfter }
-		});
 
 		const result = {
-			splitId: split.id,
+			splitId,
+			at: new Date(at).toISOString(),
 			parentCode: parent.code,
 			parentBeforeUg: parent.mass_ug,
 			parentAfterUg: budget.parentAfterUg,

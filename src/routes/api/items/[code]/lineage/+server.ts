@@ -1,9 +1,8 @@
-import { json } from '@sveltejs/kit';
 import { z } from 'zod';
 import { endpoint, readQuery } from '$lib/server/api';
 import { models } from '$lib/server/models';
 import { whoFrom } from '$lib/server/registry/common';
-import { lineage } from '$lib/server/registry/lineage';
+import { lineageJson } from '$lib/server/registry/lineage';
 import type { RequestHandler } from './$types';
 
 const query = z.strictObject({
@@ -12,5 +11,6 @@ const query = z.strictObject({
 
 export const GET: RequestHandler = endpoint(async ({ params, url, locals }) => {
 	const { depth } = readQuery(url, query);
-	return json(await lineage(models(), whoFrom(locals.user!), params.code, depth ?? null));
+	const body = await lineageJson(models(), whoFrom(locals.user!), params.code, depth ?? null);
+	return new Response(body, { headers: { 'content-type': 'application/json' } });
 });
