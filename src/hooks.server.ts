@@ -1,4 +1,6 @@
-import { error, redirect, type Handle, type HandleServerError } from '@sveltejs/kit';
+import { error, redirect, type Handle, type HandleServerError, type ServerInit } from '@sveltejs/kit';
+import { building } from '$app/environment';
+import { startOutboxSender } from '$lib/server/outbox';
 import { randomUUID } from 'node:crypto';
 import { lucia } from '$lib/server/auth/lucia';
 import { decide } from '$lib/server/auth/access';
@@ -129,4 +131,9 @@ export const handleError: HandleServerError = ({ error, event, status }) => {
 	console.error(`[regolog] error ${ref} on ${event.request.method} ${event.url.pathname}:`, error);
 	if (isDbUnavailable(error)) return { message: 'The database is not reachable at the moment; try again shortly.', code: 'unavailable' };
 	return { message: `Something went wrong on our side (reference ${ref}); nothing was changed by the failed step.`, code: 'internal' };
+};
+
+export const init: ServerInit = async () => {
+	// The mail outbox is drained in the background; a mail outage only delays delivery.
+	if (!building) startOutboxSender();
 };

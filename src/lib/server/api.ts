@@ -93,3 +93,11 @@ export function endpoint<E extends RequestEvent>(fn: Handler<E>): Handler<E> {
 		}
 	};
 }
+
+const UUID = /^[0-9a-f]{8}-[0-9a-f]{4}-[0-9a-f]{4}-[0-9a-f]{4}-[0-9a-f]{12}$/i;
+
+/** A path id that is not a well-formed UUID names nothing: 404, never a database error. */
+export function pathId(id: string, what = 'record'): string {
+	if (!UUID.test(id)) throw new ApiProblem(404, 'not_found', `No such ${what}.`);
+	return id.toLowerCase();
+}

@@ -19,7 +19,7 @@ export const AUDITORS = ['auditor', 'admin'] as const satisfies readonly Role[];
 export const ACCESS: Record<string, Rule> = {
 	'/': { '*': 'public' },
 	'/sign-in': { '*': 'public' },
-	'/sign-out': { '*': 'public' },
+	'/sign-out': { GET: 'public', POST: 'public' },
 	'/invite/[token]': { '*': 'public' },
 	'/reset': { '*': 'public' },
 	'/reset/[token]': { '*': 'public' },

@@ -1,0 +1,121 @@
+import { QueryTypes, type Transaction } from 'sequelize';
+import type { Transporter } from 'nodemailer';
+import { models } from './models';
+import { mailer } from './mail';
+import { config } from './config';
+
+export interface OutgoingMail {
+	to: string;
+	subject: string;
+	text: string;
+	html?: string;
+	kind: string;
+}
+
+/** Retry delay after the n-th failed attempt: 5 s, 10 s, 20 s, … capped at one hour. */
+export function backoffSeconds(attempts: number): number {
+	return Math.min(3600, 5 * 2 ** Math.max(0, attempts - 1));
+}
+
+/** After this many failed attempts (about three days at the cap) a message is marked failed for an admin to see. */
+export const MAX_ATTEMPTS = 80;
+
+/**
+ * Queues a message in the caller's transaction: it is sent only if the change commits, and it
+ * survives a mail outage because the sender retries from the table.
+ */
+export async function enqueueMail(t: Transaction, m: OutgoingMail, opts: { notBefore?: Date } = {}): Promise<number> {
+	const sequelize = models();
+	const [row] = await sequelize.query<{ id: number }>(
+		`INSERT INTO mail_outbox (to_address, subject, body_text, body_html, kind, next_attempt_at)
+		 VALUES (:to, :subject, :text, :html, :kind, :notBefore) RETURNING id`,
+		{ type: QueryTypes.SELECT, replacements: { ...m, html: m.html ?? null, notBefore: opts.notBefore ?? new Date() }, transaction: t }
+	);
+	// Try to send as soon as the change has committed.
+	if (!opts.notBefore) t.afterCommit(() => void kickOutbox());
+	return row.id;
+}
+
+interface Due {
+	id: number;
+	to_address: string;
+	subject: string;
+	body_text: string;
+	body_html: string | null;
+	attempts: number;
+}
+
+/**
+ * Sends due messages. Each is claimed with FOR UPDATE SKIP LOCKED, so several senders never
+ * send one message twice; a failure schedules the next attempt with backoff.
+ */
+export async function deliverDue(opts: { transport?: Transporter; limit?: number } = {}): Promise<{ sent: number; failed: number }> {
+	const sequelize = models();
+	const transport = opts.transport ?? mailer();
+	let sent = 0;
+	let failed = 0;
+	for (let i = 0; i < (opts.limit ?? 50); i++) {
+		const done = await sequelize.transaction(async (t) => {
+			const rows = await sequelize.query<Due>(
+				`SELECT id, to_address, subject, body_text, body_html, attempts FROM mail_outbox
+				 WHERE status = 'queued' AND next_attempt_at <= now()
+				 ORDER BY next_attempt_at, id LIMIT 1 FOR UPDATE SKIP LOCKED`,
+				{ type: QueryTypes.SELECT, transaction: t }
+			);
+			if (!rows.length) return null;
+			const m = rows[0];
+			try {
+				await transport.sendMail({
+					from: config.mail.from,
+					to: m.to_address,
+					subject: m.subject,
+					text: m.body_text,
+					html: m.body_html ?? undefined
+				});
+				await sequelize.query(`UPDATE mail_outbox SET status = 'sent', sent_at = now(), attempts = attempts + 1, last_error = NULL WHERE id = :id`, {
+					replacements: { id: m.id }, transaction: t
+				});
+				return 'sent' as const;
+			} catch (e) {
+				const attempts = m.attempts + 1;
+				await sequelize.query(
+					`UPDATE mail_outbox SET attempts = :attempts, last_error = :err,
+					   next_attempt_at = now() + make_interval(secs => :delay),
+					   status = CASE WHEN :attempts >= :max THEN 'failed' ELSE 'queued' END
+					 WHERE id = :id`,
+					{
+						replacements: { id: m.id, attempts, err: String((e as Error).message ?? e).slice(0, 500), delay: backoffSeconds(attempts), max: MAX_ATTEMPTS },
+						transaction: t
+					}
+				);
+				return 'failed' as const;
+			}
+		});
+		if (done === null) break;
+		if (done === 'sent') sent++;
+		else failed++;
+		// After a failure the relay is probably down: stop and wait for the next round.
+		if (done === 'failed') break;
+	}
+	return { sent, failed };
+}
+
+let running: Promise<unknown> | null = null;
+let timer: ReturnType<typeof setInterval> | null = null;
+
+/** Runs one delivery round unless one is already running. */
+export function kickOutbox(): Promise<unknown> {
+	if (!running) {
+		running = deliverDue()
+			.catch((e) => console.error('[regolog] mail outbox round failed:', (e as Error).message))
+			.finally(() => (running = null));
+	}
+	return running;
+}
+
+/** The app's background sender: a round every few seconds. */
+export function startOutboxSender(intervalMs = 3000): void {
+	if (timer) return;
+	timer = setInterval(() => void kickOutbox(), intervalMs);
+	timer.unref?.();
+}

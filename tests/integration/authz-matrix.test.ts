@@ -1,0 +1,134 @@
+import { describe, it, expect, beforeAll } from 'vitest';
+import { walkRoutes } from '../helpers/routes';
+import { client, signedIn, DEMO, type Client } from '../helpers/http';
+
+/**
+ * The authorization matrix: every route × every role, and signed out. Written by hand (not derived
+ * from the access table) so that a wrong rule fails. 'ok' means the guard let the request through:
+ * any answer but 401, 403 or a server error. Pages answer 303 to the sign-in page when signed out.
+ */
+type Expect = number | 'ok';
+type Who = 'anon' | 'admin' | 'curator' | 'lab' | 'auditor';
+interface Case {
+	path: string;
+	body?: unknown;
+	fresh?: boolean; // needs its own session (the request ends it)
+	expect: Record<Who, Expect>;
+}
+const all = (e: Expect, anon: Expect): Record<Who, Expect> => ({ anon, admin: e, curator: e, lab: e, auditor: e });
+const only = (roles: Who[], anon: Expect, denied: Expect = 403): Record<Who, Expect> => ({
+	anon,
+	admin: roles.includes('admin') ? 'ok' : denied,
+	curator: roles.includes('curator') ? 'ok' : denied,
+	lab: roles.includes('lab') ? 'ok' : denied,
+	auditor: roles.includes('auditor') ? 'ok' : denied
+});
+const SOME_UUID = '00000000-0000-4000-8000-000000000000';
+
+const MATRIX: Record<string, Record<string, Case>> = {
+	'/': { GET: { path: '/', expect: all(200, 200) } },
+	'/sign-in': {
+		GET: { path: '/sign-in', expect: all(303, 200) },
+		POST: { path: '/sign-in', body: 'email=x', expect: all('ok', 'ok') }
+	},
+	'/sign-out': {
+		GET: { path: '/sign-out', expect: all(303, 303) },
+		POST: { path: '/sign-out', body: '', fresh: true, expect: all(303, 303) }
+	},
+	'/invite/[token]': {
+		GET: { path: '/invite/not-a-real-token', expect: all(410, 410) },
+		POST: { path: '/invite/not-a-real-token', body: 'password=x', expect: all('ok', 'ok') }
+	},
+	'/reset': {
+		GET: { path: '/reset', expect: all(200, 200) },
+		POST: { path: '/reset', body: 'email=bad', expect: all('ok', 'ok') }
+	},
+	'/reset/[token]': {
+		GET: { path: '/reset/not-a-real-token', expect: all(410, 410) },
+		POST: { path: '/reset/not-a-real-token', body: 'password=x', expect: all('ok', 'ok') }
+	},
+	'/account': {
+		GET: { path: '/account', expect: all(200, 303) },
+		POST: { path: '/account?/token', body: 'label=', expect: all('ok', 401) }
+	},
+	'/admin/users': {
+		GET: { path: '/admin/users', expect: only(['admin'], 303) },
+		POST: { path: '/admin/users?/invite', body: 'email=', expect: only(['admin'], 401) }
+	},
+	'/admin/labs': {
+		GET: { path: '/admin/labs', expect: only(['admin'], 303) },
+		POST: { path: '/admin/labs?/create', body: 'name=', expect: only(['admin'], 401) }
+	},
+	'/api/health': { GET: { path: '/api/health', expect: all(200, 200) } },
+	'/api/auth/sign-in': { POST: { path: '/api/auth/sign-in', body: {}, expect: all(422, 422) } },
+	'/api/auth/sign-out': { POST: { path: '/api/auth/sign-out', body: {}, fresh: true, expect: all(200, 401) } },
+	'/api/me': { GET: { path: '/api/me', expect: all(200, 401) } },
+	'/api/tokens': {
+		GET: { path: '/api/tokens', expect: all(200, 401) },
+		POST: { path: '/api/tokens', body: {}, expect: all(422, 401) }
+	},
+	'/api/tokens/[id]': { DELETE: { path: `/api/tokens/${SOME_UUID}`, expect: all(404, 401) } },
+	'/api/labs': {
+		GET: { path: '/api/labs', expect: all(200, 401) },
+		POST: { path: '/api/labs', body: {}, expect: only(['admin'], 401) }
+	},
+	'/api/labs/[id]': { GET: { path: `/api/labs/${SOME_UUID}`, expect: all(404, 401) } },
+	'/api/users': {
+		GET: { path: '/api/users', expect: only(['admin'], 401) },
+		POST: { path: '/api/users', body: {}, expect: only(['admin'], 401) }
+	},
+	'/api/users/[id]': {
+		GET: { path: `/api/users/${SOME_UUID}`, expect: only(['admin'], 401) },
+		PATCH: { path: `/api/users/${SOME_UUID}`, body: { name: 'x' }, expect: only(['admin'], 401) }
+	}
+};
+
+const EMAIL: Record<Exclude<Who, 'anon'>, string> = { admin: DEMO.admin, curator: DEMO.curator, lab: DEMO.fennick, auditor: DEMO.auditor };
+const clients = {} as Record<Who, Client>;
+
+beforeAll(async () => {
+	clients.anon = client();
+	for (const who of Object.keys(EMAIL) as Exclude<Who, 'anon'>[]) clients[who] = await signedIn(EMAIL[who]);
+});
+
+async function call(c: Client, method: string, k: Case) {
+	if (typeof k.body === 'string') {
+		return c.request(method, k.path, k.body, { 'content-type': 'application/x-www-form-urlencoded' });
+	}
+	return c.request(method, k.path, k.body);
+}
+
+describe('authorization matrix', () => {
+	const routes = walkRoutes();
+
+	it('has an entry for every route and method found under src/routes', () => {
+		const missing = routes.flatMap((r) => r.methods.filter((m) => !MATRIX[r.id]?.[m]).map((m) => `${m} ${r.id}`));
+		expect(missing).toEqual([]);
+		const stale = Object.entries(MATRIX).flatMap(([id, ms]) => Object.keys(ms).filter((m) => !routes.find((r) => r.id === id)?.methods.includes(m)).map((m) => `${m} ${id}`));
+		expect(stale).toEqual([]);
+	});
+
+	for (const [id, methods] of Object.entries(MATRIX)) {
+		for (const [method, k] of Object.entries(methods)) {
+			it(`${method} ${id}`, async () => {
+				for (const who of Object.keys(k.expect) as Who[]) {
+					const c = k.fresh && who !== 'anon' ? await signedIn(EMAIL[who]) : clients[who];
+					const r = await call(c, method, k);
+					const want = k.expect[who];
+					const got = `${who}: ${r.status}`;
+					if (want === 'ok') {
+						expect(r.status, got).not.toBe(401);
+						expect(r.status, got).not.toBe(403);
+						expect(r.status, got).toBeLessThan(500);
+					} else {
+						expect(got).toBe(`${who}: ${want}`);
+					}
+					if (id.startsWith('/api/') && r.status >= 400) {
+						expect(r.body?.error?.code, `${who} error shape`).toEqual(expect.any(String));
+						expect(r.body?.error?.message, `${who} error shape`).toEqual(expect.any(String));
+					}
+				}
+			});
+		}
+	}
+});
