@@ -55,7 +55,28 @@ export const ACCESS: Record<string, Rule> = {
 	'/api/items/[code]': { GET: 'signed-in' },
 	'/api/items/[code]/splits': { POST: CURATORS },
 	'/api/items/[code]/lineage': { GET: 'signed-in' },
-	'/api/items/[code]/ledger': { GET: 'signed-in' }
+	'/api/items/[code]/ledger': { GET: 'signed-in' },
+	// custody: allocation requests, transfers, signatures, usage reports
+	'/requests': { GET: 'signed-in' },
+	'/requests/new': { GET: ['lab_member'], POST: ['lab_member'] },
+	'/requests/[id]': { GET: 'signed-in', POST: ['lab_member', 'curator', 'admin'] },
+	'/transfers': { GET: 'signed-in' },
+	'/transfers/new': { GET: ['curator', 'admin', 'lab_member'], POST: ['curator', 'admin', 'lab_member'] },
+	'/transfers/[id]': { GET: 'signed-in', POST: ['lab_member', 'curator', 'admin'] },
+	'/api/requests': { GET: 'signed-in', POST: ['lab_member'] },
+	'/api/requests/[id]': { GET: 'signed-in', PUT: ['lab_member'] },
+	'/api/requests/[id]/submit': { POST: ['lab_member'] },
+	'/api/requests/[id]/withdraw': { POST: ['lab_member'] },
+	'/api/requests/[id]/review': { POST: CURATORS },
+	'/api/requests/[id]/grant': { POST: CURATORS },
+	'/api/requests/[id]/decline': { POST: CURATORS },
+	'/api/requests/[id]/earmark': { POST: CURATORS },
+	'/api/requests/[id]/usage': { POST: ['lab_member'] },
+	'/api/transfers': { GET: 'signed-in', POST: ['curator', 'admin', 'lab_member'] },
+	'/api/transfers/[id]': { GET: 'signed-in' },
+	'/api/transfers/[id]/sign': { POST: ['curator', 'admin', 'lab_member'] },
+	'/api/transfers/[id]/cancel': { POST: ['curator', 'admin', 'lab_member'] },
+	'/api/transfers/[id]/receipt': { GET: 'signed-in' }
 };
 
 export function audienceFor(routeId: string | null, method: string): Audience | null {
