@@ -13,7 +13,8 @@ export function navFor(role: Role | null): NavItem[] {
 		{ href: '/collections', label: 'Collections' },
 		{ href: '/items', label: 'Items' },
 		{ href: '/requests', label: 'Requests' },
-		{ href: '/transfers', label: 'Transfers' }
+		{ href: '/transfers', label: 'Transfers' },
+		{ href: '/scan', label: 'Scan' }
 	];
 	switch (role) {
 		case 'curator':
@@ -24,6 +25,7 @@ export function navFor(role: Role | null): NavItem[] {
 				{ href: '/requests', label: 'Requests' },
 				{ href: '/transfers', label: 'Transfers' },
 				{ href: '/items', label: 'Our material' },
+				{ href: '/scan', label: 'Scan' },
 				{ href: '/account', label: 'Account' }
 			];
 		case 'auditor':

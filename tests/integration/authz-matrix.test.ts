@@ -24,6 +24,8 @@ const only = (roles: Who[], anon: Expect, denied: Expect = 403): Record<Who, Exp
 	auditor: roles.includes('auditor') ? 'ok' : denied
 });
 const SOME_UUID = '00000000-0000-4000-8000-000000000000';
+// Chamber A of the demo seed, held by the facility.
+const FACILITY_ITEM = 'TRN-00001-Y';
 
 const MATRIX: Record<string, Record<string, Case>> = {
 	'/': { GET: { path: '/', expect: all(200, 200) } },
@@ -80,7 +82,36 @@ const MATRIX: Record<string, Record<string, Case>> = {
 	'/api/users/[id]': {
 		GET: { path: `/api/users/${SOME_UUID}`, expect: only(['admin'], 401) },
 		PATCH: { path: `/api/users/${SOME_UUID}`, body: { name: 'x' }, expect: only(['admin'], 401) }
-	}
+	},
+	// registry
+	'/collections': { GET: { path: '/collections', expect: only(['admin', 'curator', 'auditor'], 303) } },
+	'/items': { GET: { path: '/items', expect: all(200, 303) } },
+	'/items/[code]': { GET: { path: `/items/${FACILITY_ITEM}`, expect: { anon: 303, admin: 200, curator: 200, auditor: 200, lab: 404 } } },
+	'/items/[code]/split': { GET: { path: `/items/${FACILITY_ITEM}/split`, expect: only(['admin', 'curator'], 303) } },
+	'/api/collections': { GET: { path: '/api/collections', expect: only(['admin', 'curator', 'auditor'], 401) } },
+	'/api/collections/[prefix]': { PATCH: { path: '/api/collections/TRN', body: {}, expect: only(['admin'], 401) } },
+	'/api/balances': {
+		GET: { path: '/api/balances', expect: only(['admin', 'curator', 'auditor'], 401) },
+		POST: { path: '/api/balances', body: {}, expect: only(['admin'], 401) }
+	},
+	'/api/balances/[id]': { PATCH: { path: `/api/balances/${SOME_UUID}`, body: {}, expect: only(['admin'], 401) } },
+	'/api/items': {
+		GET: { path: '/api/items', expect: all(200, 401) },
+		POST: { path: '/api/items', body: {}, expect: only(['admin', 'curator'], 401) }
+	},
+	'/api/items/export': { GET: { path: '/api/items/export', expect: all(200, 401) } },
+	'/api/items/[code]': { GET: { path: `/api/items/${FACILITY_ITEM}`, expect: { anon: 401, admin: 200, curator: 200, auditor: 200, lab: 404 } } },
+	'/api/items/[code]/lineage': { GET: { path: `/api/items/${FACILITY_ITEM}/lineage`, expect: { anon: 401, admin: 200, curator: 200, auditor: 200, lab: 404 } } },
+	'/api/items/[code]/ledger': { GET: { path: `/api/items/${FACILITY_ITEM}/ledger`, expect: { anon: 401, admin: 200, curator: 200, auditor: 200, lab: 404 } } },
+	'/api/items/[code]/splits': { POST: { path: `/api/items/${FACILITY_ITEM}/splits`, body: {}, expect: only(['admin', 'curator'], 401) } },
+	// labels
+	'/scan': { GET: { path: '/scan', expect: all(200, 303) } },
+	'/labels': { GET: { path: '/labels', expect: all(200, 303) } },
+	'/api/items/[code]/label': { GET: { path: `/api/items/${FACILITY_ITEM}/label`, expect: { anon: 401, admin: 200, curator: 200, auditor: 200, lab: 404 } } },
+	'/api/labels': { POST: { path: '/api/labels', body: {}, expect: all(422, 401) } },
+	'/api/scan/[code]': { GET: { path: `/api/scan/${FACILITY_ITEM}`, expect: { anon: 401, admin: 200, curator: 200, auditor: 200, lab: 404 } } },
+	// trail
+	'/api/trail/verify': { GET: { path: '/api/trail/verify', expect: only(['admin', 'auditor'], 401) } }
 };
 
 const EMAIL: Record<Exclude<Who, 'anon'>, string> = { admin: DEMO.admin, curator: DEMO.curator, lab: DEMO.fennick, auditor: DEMO.auditor };

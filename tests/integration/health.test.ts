@@ -20,15 +20,21 @@ describe('health', () => {
 		const port = Number(process.env.REGOLOG_TEST_PORT_SCRATCH_S3 ?? 54324);
 		const settings = { ...storageSettings(), endpoint: `http://127.0.0.1:${port}`, bucket: 'health-bucket' };
 		const server = await startS3({ port, dir, bucket: 'health-bucket' });
-		const client = makeS3(settings);
-		expect((await checkHealth({ s3: client, bucket: 'health-bucket' })).parts.storage).toBe('ok');
+		// Each phase uses its own client so no kept-alive socket holds the stopped server open.
+		const up = makeS3(settings);
+		expect((await checkHealth({ s3: up, bucket: 'health-bucket' })).parts.storage).toBe('ok');
+		up.destroy();
 		await server.close();
+		const client = makeS3(settings);
 		const down = await checkHealth({ s3: client, bucket: 'health-bucket' });
+		client.destroy();
 		expect(down.ok).toBe(false);
 		expect(down.parts.db).toBe('ok');
 		expect(down.parts.storage).toMatch(/^unavailable/);
 		const back = await startS3({ port, dir, bucket: 'health-bucket' });
-		expect((await checkHealth({ s3: client, bucket: 'health-bucket' })).parts.storage).toBe('ok');
+		const again = makeS3(settings);
+		expect((await checkHealth({ s3: again, bucket: 'health-bucket' })).parts.storage).toBe('ok');
+		again.destroy();
 		await back.close();
 		rmSync(dir, { recursive: true, force: true });
 	});

@@ -76,7 +76,15 @@ export const ACCESS: Record<string, Rule> = {
 	'/api/transfers/[id]': { GET: 'signed-in' },
 	'/api/transfers/[id]/sign': { POST: ['curator', 'admin', 'lab_member'] },
 	'/api/transfers/[id]/cancel': { POST: ['curator', 'admin', 'lab_member'] },
-	'/api/transfers/[id]/receipt': { GET: 'signed-in' }
+	'/api/transfers/[id]/receipt': { GET: 'signed-in' },
+	// trail
+	'/api/trail/verify': { GET: AUDITORS },
+	// labels
+	'/scan': { GET: 'signed-in' },
+	'/labels': { GET: 'signed-in' },
+	'/api/items/[code]/label': { GET: 'signed-in' },
+	'/api/labels': { POST: 'signed-in' },
+	'/api/scan/[code]': { GET: 'signed-in' }
 };
 
 export function audienceFor(routeId: string | null, method: string): Audience | null {

@@ -1,6 +1,8 @@
 import { z } from 'zod';
 import { QueryTypes, type Sequelize, type Transaction } from 'sequelize';
 import { parseCode } from '../../domain/codes';
+// db.ts registers the exact BIGINT parser; the registry reads masses as numbers on any connection
+import '../db';
 import { ApiProblem } from '../api';
 import { canSeeLab, type Viewer } from '../auth/scope';
 import type { Role, SessionUser } from '../auth/types';

@@ -53,7 +53,9 @@ function refuse(budget: SplitBudget, parent: ItemRow, reason: string | undefined
 	const issues = budget.issues.map((i) => ({ code: i.code, severity: i.severity, message: i.message, ...(i.child === undefined ? {} : { child: i.child }) }));
 	const extra = { availableUg: parent.mass_ug, requestedUg: budget.childrenTotalUg, issues };
 	const fields: Record<string, string> = {};
-	for (const i of budget.issues) fields[i.child === undefined ? (i.code === 'mass-appeared' ? 'parentAfterUg' : 'children') : `children.${i.child}.massUg`] ??= i.message;
+	const fieldOf = (i: SplitBudget['issues'][number]) =>
+		i.child !== undefined ? `children.${i.child}.massUg` : ['mass-appeared', 'parent-after-negative'].includes(i.code) ? 'parentAfterUg' : i.code === 'loss-above-tolerance' ? 'reason' : 'children';
+	for (const i of budget.issues) fields[fieldOf(i)] ??= i.message;
 	if (budget.issues.some((i) => i.code === 'children-exceed-parent' || i.code === 'parent-not-positive')) {
 		throw new ApiProblem(
 			409,
@@ -63,9 +65,8 @@ function refuse(budget: SplitBudget, parent: ItemRow, reason: string | undefined
 			extra
 		);
 	}
-	if (budget.verdict === 'rejected') {
-		throw new ApiProblem(422, 'mass_appeared', budget.issues.find((i) => i.severity === 'rejected')!.message, fields, extra);
-	}
+	const rejected = budget.issues.find((i) => i.severity === 'rejected');
+	if (rejected) throw new ApiProblem(422, rejected.code === 'mass-appeared' ? 'mass_appeared' : 'invalid_input', rejected.message, fields, extra);
 	if (budget.verdict === 'needs-reason' && !reason) {
 		throw new ApiProblem(422, 'reason_required', `This split needs a recorded reason: ${budget.issues.map((i) => i.message).join('; ')}.`, { reason: 'is required for this split', ...fields }, extra);
 	}

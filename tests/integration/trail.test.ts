@@ -1,0 +1,298 @@
+import { describe, it, expect, beforeAll, afterAll } from 'vitest';
+import { createHash } from 'node:crypto';
+import canonicalize from 'canonicalize';
+import pg from 'pg';
+import { Sequelize } from 'sequelize';
+import { migrateUp } from '../../src/lib/server/migrator';
+import fc from 'fast-check';
+import {
+	appendTrail,
+	canonicalEvent,
+	canonicalParsed,
+	canonicalRawRow,
+	chainHash,
+	verifyTrail,
+	GENESIS_HASH,
+	SYSTEM_ACTOR,
+	type TrailInput
+} from '../../src/lib/server/trail';
+import { asSuperuser, scratchDatabase } from '../helpers/scratch-db';
+
+describe('SHA-256 and canonical JSON check vectors', () => {
+	it('SHA-256 of "abc" is the FIPS 180-4 example digest', () => {
+		// FIPS 180-4 example "abc" (NIST, Secure Hash Standard; one-block message), typed in from memory
+		const abc = 'ba7816bf8f01cfea414140de5dae2223b00361a396177a9cb410ff61f20015ad';
+		expect(createHash('sha256').update('abc').digest('hex')).toBe(abc);
+		// chainHash is SHA-256 over the previous hash followed by the canonical JSON
+		expect(chainHash('', 'abc')).toBe(abc);
+		expect(chainHash('ab', 'c')).toBe(abc);
+	});
+
+	it('SHA-256 of the two-block FIPS 180-4 example', () => {
+		// FIPS 180-4 example "abcdbcdecdefdefgefghfghighijhijkijkljklmklmnlmnomnopnopq", typed in from memory
+		expect(createHash('sha256').update('abcdbcdecdefdefgefghfghighijhijkijkljklmklmnlmnomnopnopq').digest('hex')).toBe(
+			'248d6a61d20638b8e5c026930c3e6039a33ce45964ff2167f6ecedd419db06c1'
+		);
+	});
+
+	// The inputs and outputs below are typed in from the text of RFC 8785 (JSON Canonicalization Scheme).
+	it('serialises primitives as RFC 8785 §3.2.2 shows', () => {
+		const input = String.raw`{
+			"numbers": [333333333.33333329, 1E30, 4.50, 2e-3, 0.000000000000000000000000001],
+			"string": "\u20ac$\u000F\u000aA'\u0042\u0022\u005c\\\"\/",
+			"literals": [null, true, false]
+		}`;
+		const output = String.raw`{"literals":[null,true,false],"numbers":[333333333.3333333,1e+30,4.5,0.002,1e-27],"string":"€$\u000f\nA'B\"\\\\\"/"}`;
+		expect(canonicalize(JSON.parse(input))).toBe(output);
+	});
+
+	it('sorts member names by UTF-16 code units as RFC 8785 §3.2.3 shows', () => {
+		const input = String.raw`{
+			"\u20ac": "Euro Sign",
+			"\r": "Carriage Return",
+			"\ufb33": "Hebrew Letter Dalet With Dagesh",
+			"1": "One",
+			"\ud83d\ude00": "Emoji: Grinning Face",
+			"\u0080": "Control",
+			"\u00f6": "Latin Small Letter O With Diaeresis"
+		}`;
+		// RFC 8785 §3.2.3: the names come out as "\r", "1", "\u0080", "\u00f6", "\u20ac", "\ud83d\ude00", "\ufb33"
+		const output =
+			'{"\\r":"Carriage Return","1":"One","\u0080":"Control","\u00f6":"Latin Small Letter O With Diaeresis",' +
+			'"\u20ac":"Euro Sign","\ud83d\ude00":"Emoji: Grinning Face","\ufb33":"Hebrew Letter Dalet With Dagesh"}';
+		expect(canonicalize(JSON.parse(input))).toBe(output);
+	});
+
+	it('serialises numbers as RFC 8785 Appendix B lists them', () => {
+		// RFC 8785 Appendix B: IEEE 754 bit pattern → canonical text
+		const samples: [string, string][] = [
+			['0000000000000000', '0'],
+			['8000000000000000', '0'],
+			['0000000000000001', '5e-324'],
+			['8000000000000001', '-5e-324'],
+			['7fefffffffffffff', '1.7976931348623157e+308'],
+			['ffefffffffffffff', '-1.7976931348623157e+308'],
+			['4340000000000000', '9007199254740992'],
+			['c340000000000000', '-9007199254740992'],
+			['4430000000000000', '295147905179352830000'],
+			['44b52d02c7e14af5', '9.999999999999997e+22'],
+			['44b52d02c7e14af6', '1e+23'],
+			['44b52d02c7e14af7', '1.0000000000000001e+23'],
+			['444b1ae4d6e2ef4e', '999999999999999700000'],
+			['444b1ae4d6e2ef4f', '999999999999999900000'],
+			['444b1ae4d6e2ef50', '1e+21'],
+			['3eb0c6f7a0b5ed8c', '9.999999999999997e-7'],
+			['3eb0c6f7a0b5ed8d', '0.000001'],
+			['41b3de4355555553', '333333333.3333332'],
+			['41b3de4355555554', '333333333.33333325'],
+			['41b3de4355555555', '333333333.3333333'],
+			['41b3de4355555556', '333333333.3333334'],
+			['41b3de4355555557', '333333333.33333343'],
+			['becbf647612f3696', '-0.0000033333333333333333'],
+			['43143ff3c1cb0959', '1424953923781206.2']
+		];
+		for (const [bits, text] of samples) {
+			const n = Buffer.from(bits, 'hex').readDoubleBE(0);
+			expect(canonicalize(n), bits).toBe(text);
+		}
+		// Appendix B: NaN and Infinity have no JSON form and are refused
+		expect(() => canonicalize(Buffer.from('7fffffffffffffff', 'hex').readDoubleBE(0))).toThrow();
+		expect(() => canonicalize(Buffer.from('7ff0000000000000', 'hex').readDoubleBE(0))).toThrow();
+	});
+
+	it('canonicalEvent is canonical JSON of the whole event, with the hashes left out', () => {
+		const e = {
+			seq: 7,
+			at: new Date('2031-03-10T10:30:00.123Z'),
+			actor_id: null,
+			actor_label: 'curator@brightwater.example',
+			action: 'item.split',
+			subject_type: 'item',
+			subject_id: 'HLF-0001',
+			before: { massUg: 212_400_000, note: 'Ölfleck €' },
+			after: { massUg: 212_399_210, children: ['HLF-0002', 'HLF-0003'] }
+		};
+		expect(canonicalEvent(e)).toBe(
+			canonicalize({
+				seq: 7,
+				at: '2031-03-10T10:30:00.123Z',
+				actor: { id: null, label: 'curator@brightwater.example' },
+				action: 'item.split',
+				subject: { type: 'item', id: 'HLF-0001' },
+				before: e.before,
+				after: e.after
+			})
+		);
+	});
+});
+
+describe('the verification path builds the same canonical JSON', () => {
+	// strings as PostgreSQL can hold them: whole Unicode characters, so no lone surrogates
+	const json = fc.jsonValue({ stringUnit: 'grapheme' });
+	const text = fc.string({ unit: 'grapheme', maxLength: 40 });
+
+	it('canonicalParsed gives the canonicalize package’s text for any parsed JSON', () => {
+		fc.assert(fc.property(json, (v) => canonicalParsed(JSON.parse(JSON.stringify(v))) === canonicalize(JSON.parse(JSON.stringify(v)))), { numRuns: 500 });
+	});
+
+	it('canonicalRawRow gives canonicalEvent’s text for a row read as text', () => {
+		const row = fc.record({
+			seq: fc.integer({ min: 1, max: Number.MAX_SAFE_INTEGER }),
+			at: fc.date({ min: new Date('1970-01-01T00:00:00Z'), max: new Date('9999-12-31T23:59:59.999Z'), noInvalidDate: true }),
+			actor_id: fc.option(fc.uuid(), { nil: null }),
+			actor_label: text,
+			action: text,
+			subject_type: text,
+			subject_id: text,
+			before: fc.option(json, { nil: null }),
+			after: fc.option(json, { nil: null })
+		});
+		fc.assert(
+			fc.property(row, (e) => {
+				const stored = { ...e, before: JSON.parse(JSON.stringify(e.before)), after: JSON.parse(JSON.stringify(e.after)) };
+				const raw = [
+					String(e.seq), e.at.toISOString(), e.actor_id, e.actor_label, e.action, e.subject_type, e.subject_id,
+					e.before === null ? null : JSON.stringify(e.before), e.after === null ? null : JSON.stringify(e.after), 'p', 'h'
+				] as Parameters<typeof canonicalRawRow>[0];
+				expect(canonicalRawRow(raw)).toBe(canonicalEvent(stored));
+			}),
+			{ numRuns: 300 }
+		);
+	});
+});
+
+const events = (n: number, tag = 'seed'): TrailInput[] =>
+	Array.from({ length: n }, (_, i) => ({
+		actor: SYSTEM_ACTOR,
+		action: 'item.weighed',
+		subjectType: 'item',
+		subjectId: `TRN-${String(i + 1).padStart(4, '0')}`,
+		before: i % 3 === 0 ? undefined : { massUg: 1000 + i, where: 'Schrank “B” – Fach 3' },
+		after: { massUg: 1000 + i - 1, tag, nested: { z: [1, 2.5, -0.125, 1e21], a: null, ü: true } }
+	}));
+
+describe('the trail in the database', () => {
+	let scratch: Awaited<ReturnType<typeof scratchDatabase>>;
+
+	async function append(list: TrailInput[], sequelize: Sequelize = scratch.sequelize) {
+		for (const e of list) await sequelize.transaction((t) => appendTrail(sequelize, t, e));
+	}
+	const superuser = <T>(fn: (c: pg.Client) => Promise<T>) => asSuperuser(scratch.name, fn);
+	/** Runs SQL as the superuser with the trail's triggers off for that session only. */
+	const tamper = (sql: string) =>
+		superuser(async (c) => {
+			await c.query('SET session_replication_role = replica');
+			await c.query(sql);
+		});
+
+	beforeAll(async () => {
+		scratch = await scratchDatabase('trail');
+		await migrateUp(scratch.sequelize);
+	});
+	afterAll(() => scratch.drop());
+
+	it('appends a chain that verifies, linked from the genesis hash', async () => {
+		await append(events(25));
+		const r = await verifyTrail(scratch.sequelize);
+		expect(r).toEqual({ ok: true, events: 25, firstBrokenAt: null });
+		const [first] = (await scratch.sequelize.query('SELECT prev_hash FROM trail_events WHERE seq = 1'))[0] as { prev_hash: string }[];
+		expect(first.prev_hash).toBe(GENESIS_HASH);
+	});
+
+	it('verifies the same whatever the batch size', async () => {
+		for (const batch of [1, 2, 7, 24, 25, 26, 10_000]) {
+			expect(await verifyTrail(scratch.sequelize, batch)).toEqual({ ok: true, events: 25, firstBrokenAt: null });
+		}
+	});
+
+	it('refuses UPDATE, DELETE and TRUNCATE through the app’s own connection', async () => {
+		const q = scratch.sequelize;
+		await expect(q.query(`UPDATE trail_events SET actor_label = 'someone else' WHERE seq = 3`)).rejects.toThrow(/append-only: UPDATE refused/);
+		await expect(q.query('DELETE FROM trail_events WHERE seq = 3')).rejects.toThrow(/append-only: DELETE refused/);
+		await expect(q.query('TRUNCATE trail_events')).rejects.toThrow(/append-only: TRUNCATE refused/);
+		// and the app's role cannot switch triggers off for its session
+		await expect(q.query('SET session_replication_role = replica')).rejects.toThrow(/permission denied/);
+		expect(await verifyTrail(q)).toMatchObject({ ok: true, events: 25 });
+	});
+
+	it('finds a row changed directly in the database and names the first broken event', async () => {
+		await tamper(`UPDATE trail_events SET after = jsonb_set(after, '{massUg}', '1') WHERE seq = 9`);
+		const r = await verifyTrail(scratch.sequelize);
+		expect(r).toMatchObject({ ok: false, events: 8, firstBrokenAt: 9, reason: 'content does not match its hash' });
+		// later changes do not hide the first one
+		await tamper(`UPDATE trail_events SET actor_label = 'intruder' WHERE seq = 17`);
+		expect(await verifyTrail(scratch.sequelize, 4)).toMatchObject({ ok: false, firstBrokenAt: 9 });
+	});
+
+	it('finds a rewritten event whose own hash was recomputed, at the next link', async () => {
+		const s2 = await scratchDatabase('trail_rehash');
+		try {
+			await migrateUp(s2.sequelize);
+			await append(events(6), s2.sequelize);
+			const [rows] = (await s2.sequelize.query('SELECT * FROM trail_events WHERE seq = 4')) as [any[], unknown];
+			const row = { ...rows[0], after: { massUg: 1 } };
+			const hash = chainHash(row.prev_hash, canonicalEvent(row));
+			await asSuperuser(s2.name, async (c) => {
+				await c.query('SET session_replication_role = replica');
+				await c.query(`UPDATE trail_events SET after = '{"massUg": 1}', hash = $1 WHERE seq = 4`, [hash]);
+			});
+			// event 4 is consistent with itself; the chain breaks where event 5 still points to the old hash
+			expect(await verifyTrail(s2.sequelize)).toMatchObject({ ok: false, events: 4, firstBrokenAt: 5, reason: 'link to the previous event does not match' });
+		} finally {
+			await s2.drop();
+		}
+	});
+
+	it('finds a deleted event', async () => {
+		const s3 = await scratchDatabase('trail_gap');
+		try {
+			await migrateUp(s3.sequelize);
+			await append(events(5), s3.sequelize);
+			await asSuperuser(s3.name, async (c) => {
+				await c.query('SET session_replication_role = replica');
+				await c.query('DELETE FROM trail_events WHERE seq = 3');
+			});
+			expect(await verifyTrail(s3.sequelize)).toMatchObject({ ok: false, events: 2, firstBrokenAt: 3, reason: 'event 3 is missing' });
+		} finally {
+			await s3.drop();
+		}
+	});
+
+	it('keeps one chain under 200 concurrent writers', async () => {
+		const s4 = await scratchDatabase('trail_concurrent');
+		const wide = new Sequelize(s4.name, process.env.REGOLOG_DB_USER ?? 'regolog', process.env.REGOLOG_DB_PASSWORD ?? 'regolog-local', {
+			host: process.env.REGOLOG_DB_HOST ?? '127.0.0.1',
+			port: Number(process.env.REGOLOG_DB_PORT ?? 54320),
+			dialect: 'postgres',
+			dialectModule: pg,
+			logging: false,
+			pool: { max: 50, min: 0, acquire: 60_000 }
+		});
+		try {
+			await migrateUp(s4.sequelize);
+			const N = 200;
+			const list = events(N, 'concurrent');
+			// every writer does some work of its own in its transaction before and after appending
+			await Promise.all(
+				list.map((e) =>
+					wide.transaction(async (t) => {
+						await wide.query('SELECT pg_sleep(random() * 0.01)', { transaction: t });
+						await appendTrail(wide, t, e);
+						await wide.query('SELECT pg_sleep(random() * 0.01)', { transaction: t });
+					})
+				)
+			);
+			expect(await verifyTrail(s4.sequelize)).toEqual({ ok: true, events: N, firstBrokenAt: null });
+			const [[stats]] = (await s4.sequelize.query(
+				`SELECT count(*)::int AS n, min(seq)::int AS lo, max(seq)::int AS hi,
+				        count(DISTINCT prev_hash)::int AS prevs, count(DISTINCT subject_id)::int AS subjects
+				 FROM trail_events`
+			)) as [any[], unknown];
+			// seqs 1..N without gaps, every writer's event present once, and no two events share a prev_hash
+			expect(stats).toEqual({ n: N, lo: 1, hi: N, prevs: N, subjects: N });
+		} finally {
+			await wide.close();
+			await s4.drop();
+		}
+	});
+});
