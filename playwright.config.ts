@@ -30,6 +30,6 @@ export default defineConfig({
 		url: `http://127.0.0.1:${port}/api/health`,
 		reuseExistingServer: false,
 		timeout: 60_000,
-		env: { ...(process.env as Record<string, string>), PORT: String(port), HOST: '127.0.0.1' }
+		env: { ...(process.env as Record<string, string>), PORT: String(port), HOST: '127.0.0.1', KEEP_ALIVE_TIMEOUT: '65' }
 	}
 });
