@@ -79,6 +79,7 @@ export const ACCESS: Record<string, Rule> = {
 	'/api/transfers/[id]/receipt': { GET: 'signed-in' },
 	// trail
 	'/api/trail/verify': { GET: AUDITORS },
+	'/api/trail/events': { GET: AUDITORS },
 	// labels
 	'/scan': { GET: 'signed-in' },
 	'/labels': { GET: 'signed-in' },
