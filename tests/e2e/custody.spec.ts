@@ -28,7 +28,7 @@ test('a lab asks, the curator grants, splits and ships, the lab signs and report
 	await lab.getByLabel('Scientific justification').fill('To compare matrix amino acids with the chamber A fines of the returned sample.');
 	await lab.getByRole('button', { name: 'Submit for review' }).click();
 	await expect(lab).toHaveURL(/\/requests\/[0-9a-f-]{36}$/);
-	await expect(lab.getByText('Submitted', { exact: true })).toBeVisible();
+	await expect(lab.getByTestId('request-state')).toHaveText('Submitted');
 	const requestUrl = new URL(lab.url()).pathname;
 	const number = (await lab.getByRole('heading', { level: 1 }).textContent())!.trim();
 
@@ -38,7 +38,7 @@ test('a lab asks, the curator grants, splits and ships, the lab signs and report
 	await curator.getByTestId('work-review').getByRole('link', { name: number }).click();
 	await curator.getByLabel('Mass to grant (mg)').fill('0.800');
 	await curator.getByRole('button', { name: 'Grant' }).click();
-	await expect(curator.getByText('Granted', { exact: true })).toBeVisible();
+	await expect(curator.getByTestId('request-state')).toHaveText('Granted');
 	const items = await (await curator.request.get('/api/items?collection=HLF&state=stored&holder=facility&kind=specimen')).json();
 	const parent = items.items.sort((a: { massUg: number }, b: { massUg: number }) => b.massUg - a.massUg)[0].code;
 	const split = await curator.request.post(`/api/items/${parent}/splits`, { data: { children: [{ massUg: 800 }] }, headers: { origin: new URL(curator.url()).origin } });
@@ -59,18 +59,18 @@ test('a lab asks, the curator grants, splits and ships, the lab signs and report
 	const transferUrl = new URL(curator.url()).pathname;
 	await curator.getByLabel(/Dispatched/).check();
 	await curator.getByLabel('Your password').fill('wrong password here');
-	await curator.getByRole('button', { name: 'Sign' }).click();
+	await curator.getByRole('button', { name: 'Sign with my password' }).click();
 	await expect(curator.getByRole('alert').first()).toContainText('not your password');
 	await curator.getByLabel(/Dispatched/).check();
 	await curator.getByLabel('Your password').fill(PASSWORD);
-	await curator.getByRole('button', { name: 'Sign' }).click();
+	await curator.getByRole('button', { name: 'Sign with my password' }).click();
 	await expect(curator.getByTestId('signature')).toHaveCount(1);
 
 	// The lab signs receipt and reports usage.
 	await lab.goto(transferUrl);
 	await lab.getByLabel('Received intact').check();
 	await lab.getByLabel('Your password').fill(PASSWORD);
-	await lab.getByRole('button', { name: 'Sign' }).click();
+	await lab.getByRole('button', { name: 'Sign with my password' }).click();
 	await expect(lab.getByTestId('signature')).toHaveCount(2);
 	await expect(lab.getByText('✓ matches the manifest')).toHaveCount(2);
 	await lab.goto(requestUrl);
