@@ -1,6 +1,7 @@
 import { error, redirect, type Handle, type HandleServerError, type ServerInit } from '@sveltejs/kit';
 import { building } from '$app/environment';
 import { startOutboxSender } from '$lib/server/outbox';
+import { remindOverdueUsage } from '$lib/server/custody/usage';
 import { randomUUID } from 'node:crypto';
 import { lucia } from '$lib/server/auth/lucia';
 import { decide } from '$lib/server/auth/access';
@@ -135,5 +136,11 @@ export const handleError: HandleServerError = ({ error, event, status }) => {
 
 export const init: ServerInit = async () => {
 	// The mail outbox is drained in the background; a mail outage only delays delivery.
-	if (!building) startOutboxSender();
+	if (!building) {
+		startOutboxSender();
+		// Overdue usage reports are reminded once, checked hourly.
+		const remind = () => remindOverdueUsage(models()).catch((e) => console.error('[regolog] usage reminders failed:', (e as Error).message));
+		setInterval(remind, 3600_000).unref();
+		setTimeout(remind, 10_000).unref();
+	}
 };

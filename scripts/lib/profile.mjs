@@ -47,6 +47,7 @@ export function appEnv(pr) {
 		REGOLOG_SMTP_HOST: '127.0.0.1',
 		REGOLOG_SMTP_PORT: String(pr.smtpPort),
 		REGOLOG_MAIL_DIR: pr.mailDir,
+		REGOLOG_SMTP_PID_FILE: resolve(pr.root, 'smtp.pid'),
 		// Ports the tests themselves use: a scratch cluster, a scratch object store, the API test server.
 		REGOLOG_TEST_PORT_SCRATCH_DB: String(pr.portBase + 3),
 		REGOLOG_TEST_PORT_SCRATCH_S3: String(pr.portBase + 4),

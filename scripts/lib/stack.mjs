@@ -1,6 +1,6 @@
 // Starts and stops what Regolog runs on: PostgreSQL and the local fakes for storage and mail.
 import { spawn, spawnSync, execFileSync } from 'node:child_process';
-import { existsSync, mkdirSync, rmSync, statSync, readdirSync, openSync } from 'node:fs';
+import { existsSync, mkdirSync, rmSync, statSync, readdirSync, openSync, writeFileSync, readFileSync } from 'node:fs';
 import { join } from 'node:path';
 import { profile, appEnv } from './profile.mjs';
 import { startCluster, stopCluster, ensureDatabase, portOpen } from './pg.mjs';
@@ -40,6 +40,9 @@ export async function startFakes(pr) {
 	}
 	const s3 = spawnLogged('s3', process.execPath, ['fakes/s3.mjs', '--port', String(pr.s3Port), '--dir', pr.s3Dir], {}, pr.logDir);
 	const smtp = spawnLogged('smtp', process.execPath, ['fakes/smtp.mjs', '--port', String(pr.smtpPort), '--dir', pr.mailDir], {}, pr.logDir);
+	// Pid files let a test stop and restart a fake, and the stack's stop end a restarted one.
+	writeFileSync(join(pr.root, 's3.pid'), String(s3.pid));
+	writeFileSync(join(pr.root, 'smtp.pid'), String(smtp.pid));
 	await waitForPort(pr.s3Port, 'fake S3');
 	await waitForPort(pr.smtpPort, 'fake SMTP');
 	return [s3, smtp];
@@ -81,6 +84,15 @@ export async function startStack(name, { fresh = false } = {}) {
 			if (stopped) return;
 			stopped = true;
 			for (const c of children) if (c.exitCode === null) c.kill('SIGTERM');
+			for (const name of ['s3', 'smtp']) {
+				const f = join(pr.root, `${name}.pid`);
+				try {
+					process.kill(Number(readFileSync(f, 'utf8')), 'SIGTERM');
+				} catch {
+					/* already gone */
+				}
+				rmSync(f, { force: true });
+			}
 			stopCluster({ root: pr.root, log });
 		}
 	};

@@ -12,13 +12,22 @@ export function navFor(role: Role | null): NavItem[] {
 		{ href: '/', label: 'Worklist' },
 		{ href: '/collections', label: 'Collections' },
 		{ href: '/items', label: 'Items' },
+		{ href: '/requests', label: 'Requests' },
+		{ href: '/transfers', label: 'Transfers' },
 		{ href: '/scan', label: 'Scan' }
 	];
 	switch (role) {
 		case 'curator':
 			return [...common, { href: '/balances', label: 'Balances' }, { href: '/account', label: 'Account' }];
 		case 'lab_member':
-			return [{ href: '/', label: 'Worklist' }, { href: '/items', label: 'Our material' }, { href: '/scan', label: 'Scan' }, { href: '/account', label: 'Account' }];
+			return [
+				{ href: '/', label: 'Worklist' },
+				{ href: '/requests', label: 'Requests' },
+				{ href: '/transfers', label: 'Transfers' },
+				{ href: '/items', label: 'Our material' },
+				{ href: '/scan', label: 'Scan' },
+				{ href: '/account', label: 'Account' }
+			];
 		case 'auditor':
 			return [...common, { href: '/account', label: 'Account' }];
 		case 'admin':

@@ -111,7 +111,50 @@ const MATRIX: Record<string, Record<string, Case>> = {
 	'/api/labels': { POST: { path: '/api/labels', body: {}, expect: all(422, 401) } },
 	'/api/scan/[code]': { GET: { path: `/api/scan/${FACILITY_ITEM}`, expect: { anon: 401, admin: 200, curator: 200, auditor: 200, lab: 404 } } },
 	// trail
-	'/api/trail/verify': { GET: { path: '/api/trail/verify', expect: only(['admin', 'auditor'], 401) } }
+	'/api/trail/verify': { GET: { path: '/api/trail/verify', expect: only(['admin', 'auditor'], 401) } },
+	// custody
+	'/requests': { GET: { path: '/requests', expect: all(200, 303) } },
+	'/requests/new': {
+		GET: { path: '/requests/new', expect: only(['lab'], 303) },
+		POST: { path: '/requests/new', body: 'massMg=', expect: only(['lab'], 401) }
+	},
+	'/requests/[id]': {
+		GET: { path: `/requests/${SOME_UUID}`, expect: all(404, 303) },
+		POST: { path: `/requests/${SOME_UUID}?/submit`, body: 'x=1', expect: only(['admin', 'curator', 'lab'], 401) }
+	},
+	'/transfers': { GET: { path: '/transfers', expect: all(200, 303) } },
+	'/transfers/new': {
+		GET: { path: `/transfers/new?request=${SOME_UUID}`, expect: only(['admin', 'curator', 'lab'], 303) },
+		POST: { path: `/transfers/new?request=${SOME_UUID}`, body: 'container=', expect: only(['admin', 'curator', 'lab'], 401) }
+	},
+	'/transfers/[id]': {
+		GET: { path: `/transfers/${SOME_UUID}`, expect: all(404, 303) },
+		POST: { path: `/transfers/${SOME_UUID}?/cancel`, body: 'x=1', expect: only(['admin', 'curator', 'lab'], 401) }
+	},
+	'/api/requests': {
+		GET: { path: '/api/requests', expect: all(200, 401) },
+		POST: { path: '/api/requests', body: {}, expect: only(['lab'], 401) }
+	},
+	'/api/requests/[id]': {
+		GET: { path: `/api/requests/${SOME_UUID}`, expect: all(404, 401) },
+		PUT: { path: `/api/requests/${SOME_UUID}`, body: {}, expect: only(['lab'], 401) }
+	},
+	'/api/requests/[id]/submit': { POST: { path: `/api/requests/${SOME_UUID}/submit`, body: {}, expect: only(['lab'], 401) } },
+	'/api/requests/[id]/withdraw': { POST: { path: `/api/requests/${SOME_UUID}/withdraw`, body: {}, expect: only(['lab'], 401) } },
+	'/api/requests/[id]/review': { POST: { path: `/api/requests/${SOME_UUID}/review`, body: {}, expect: only(['admin', 'curator'], 401) } },
+	'/api/requests/[id]/grant': { POST: { path: `/api/requests/${SOME_UUID}/grant`, body: {}, expect: only(['admin', 'curator'], 401) } },
+	'/api/requests/[id]/decline': { POST: { path: `/api/requests/${SOME_UUID}/decline`, body: {}, expect: only(['admin', 'curator'], 401) } },
+	'/api/requests/[id]/earmark': { POST: { path: `/api/requests/${SOME_UUID}/earmark`, body: {}, expect: only(['admin', 'curator'], 401) } },
+	'/api/requests/[id]/usage': { POST: { path: `/api/requests/${SOME_UUID}/usage`, body: {}, expect: only(['lab'], 401) } },
+	'/api/transfers': {
+		GET: { path: '/api/transfers', expect: all(200, 401) },
+		POST: { path: '/api/transfers', body: {}, expect: only(['admin', 'curator', 'lab'], 401) }
+	},
+	'/api/transfers/[id]': { GET: { path: `/api/transfers/${SOME_UUID}`, expect: all(404, 401) } },
+	'/api/transfers/[id]/sign': { POST: { path: `/api/transfers/${SOME_UUID}/sign`, body: {}, expect: only(['admin', 'curator', 'lab'], 401) } },
+	'/api/transfers/[id]/cancel': { POST: { path: `/api/transfers/${SOME_UUID}/cancel`, body: {}, expect: only(['admin', 'curator', 'lab'], 401) } },
+	'/api/transfers/[id]/receipt': { GET: { path: `/api/transfers/${SOME_UUID}/receipt`, expect: all(404, 401) } },
+	'/api/trail/events': { GET: { path: '/api/trail/events?limit=1', expect: only(['admin', 'auditor'], 401) } }
 };
 
 const EMAIL: Record<Exclude<Who, 'anon'>, string> = { admin: DEMO.admin, curator: DEMO.curator, lab: DEMO.fennick, auditor: DEMO.auditor };

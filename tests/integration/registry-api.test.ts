@@ -60,7 +60,7 @@ describe('splitting through the API', () => {
 		for (const code of codes) expect(parseCode(code).ok).toBe(true);
 
 		const item = await curator.get(`/api/items/${parent}`);
-		expect(item.body.item.budget).toEqual({ initialMassUg: 10_000, childrenInitialUg: 4_000, lossesUg: 0, remainingUg: 6_000, children: 2, splits: 1, balanced: true });
+		expect(item.body.item.budget).toEqual({ initialMassUg: 10_000, childrenInitialUg: 4_000, lossesUg: 0, usedUg: 0, remainingUg: 6_000, children: 2, splits: 1, balanced: true });
 
 		const lineage = await curator.get(`/api/items/${codes[1]}/lineage`);
 		expect(lineage.body.ancestors.map((a: { code: string }) => a.code)).toEqual([parent]);

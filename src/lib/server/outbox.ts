@@ -31,8 +31,8 @@ export async function enqueueMail(t: Transaction, m: OutgoingMail, opts: { notBe
 		 VALUES (:to, :subject, :text, :html, :kind, :notBefore) RETURNING id`,
 		{ type: QueryTypes.SELECT, replacements: { ...m, html: m.html ?? null, notBefore: opts.notBefore ?? new Date() }, transaction: t }
 	);
-	// Try to send as soon as the change has committed.
-	if (!opts.notBefore) t.afterCommit(() => void kickOutbox());
+	// In the app (where the sender runs), try to send as soon as the change has committed.
+	if (!opts.notBefore && timer) t.afterCommit(() => void kickOutbox());
 	return row.id;
 }
 

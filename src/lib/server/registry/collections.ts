@@ -26,6 +26,7 @@ interface CollectionRow {
 	consumed_ug: number;
 	lost_ug: number;
 	losses_ug: number;
+	used_ug: number;
 	pristine_ug: number;
 	pristine_u2: number;
 }
@@ -50,6 +51,7 @@ export async function collectionSummaries(sq: Sequelize) {
 		        coalesce(sum(i.mass_ug) FILTER (WHERE i.state = 'consumed'), 0)::bigint AS consumed_ug,
 		        coalesce(sum(i.mass_ug) FILTER (WHERE i.state = 'lost'), 0)::bigint AS lost_ug,
 		        (SELECT coalesce(sum(s.loss_ug), 0)::bigint FROM splits s JOIN items p ON p.id = s.parent_id WHERE p.collection_id = c.id) AS losses_ug,
+		        (SELECT coalesce(sum(u.consumed_ug + u.lost_ug + u.gap_ug), 0)::bigint FROM usage_reports u JOIN items ui ON ui.id = u.item_id WHERE ui.collection_id = c.id) AS used_ug,
 		        coalesce(sum(i.mass_ug) FILTER (WHERE i.state IN ('stored', 'earmarked') AND i.holder_lab_id IS NULL), 0)::bigint AS pristine_ug,
 		        coalesce(sum(i.mass_u_ug ^ 2) FILTER (WHERE i.state IN ('stored', 'earmarked') AND i.holder_lab_id IS NULL), 0) AS pristine_u2
 		 FROM collections c LEFT JOIN items i ON i.collection_id = c.id
@@ -87,9 +89,10 @@ export async function collectionSummaries(sq: Sequelize) {
 				outUg: r.out_ug,
 				consumedUg: r.consumed_ug,
 				lostUg: r.lost_ug,
-				splitLossesUg: r.losses_ug
+				splitLossesUg: r.losses_ug,
+				usedUg: r.used_ug
 			},
-			balanced: r.registered_ug === r.stored_ug + r.earmarked_ug + r.out_ug + r.consumed_ug + r.lost_ug + r.losses_ug
+			balanced: r.registered_ug === r.stored_ug + r.earmarked_ug + r.out_ug + r.consumed_ug + r.lost_ug + r.losses_ug + r.used_ug
 		};
 	});
 }

@@ -95,11 +95,12 @@ export async function registerSpecimen(sq: Sequelize, who: Who, input: RegisterR
 /** One item with its budget: initial = children's initial masses + split losses + remaining. */
 export async function getItem(sq: Sequelize, who: Who, codeText: string) {
 	const row = await findItem(sq, who, codeText);
-	const [b] = await sq.query<{ children: number; children_ug: number; losses_ug: number; splits: number }>(
+	const [b] = await sq.query<{ children: number; children_ug: number; losses_ug: number; splits: number; used_ug: number }>(
 		`SELECT (SELECT count(*)::int FROM items WHERE parent_id = :id) AS children,
 		        (SELECT coalesce(sum(initial_mass_ug), 0)::bigint FROM items WHERE parent_id = :id) AS children_ug,
 		        (SELECT coalesce(sum(loss_ug), 0)::bigint FROM splits WHERE parent_id = :id) AS losses_ug,
-		        (SELECT count(*)::int FROM splits WHERE parent_id = :id) AS splits`,
+		        (SELECT count(*)::int FROM splits WHERE parent_id = :id) AS splits,
+		        (SELECT coalesce(sum(consumed_ug + lost_ug + gap_ug), 0)::bigint FROM usage_reports WHERE item_id = :id) AS used_ug`,
 		{ type: QueryTypes.SELECT, replacements: { id: row.id } }
 	);
 	return {
@@ -108,10 +109,12 @@ export async function getItem(sq: Sequelize, who: Who, codeText: string) {
 			initialMassUg: row.initial_mass_ug,
 			childrenInitialUg: b.children_ug,
 			lossesUg: b.losses_ug,
+			// consumed, lost in use or unaccounted for by a lab's usage report
+			usedUg: b.used_ug,
 			remainingUg: row.mass_ug,
 			children: b.children,
 			splits: b.splits,
-			balanced: row.initial_mass_ug === b.children_ug + b.losses_ug + row.mass_ug
+			balanced: row.initial_mass_ug === b.children_ug + b.losses_ug + b.used_ug + row.mass_ug
 		}
 	};
 }

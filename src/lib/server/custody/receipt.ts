@@ -1,0 +1,68 @@
+import PDFDocument from 'pdfkit';
+import { createRequire } from 'node:module';
+import { dirname, join } from 'node:path';
+import { formatMg } from '../../domain/mass';
+import type { getTransfer } from './transfers';
+
+type TransferData = Awaited<ReturnType<typeof getTransfer>>;
+
+const require = createRequire(import.meta.url);
+function fontFile(weight: 400 | 700): string {
+	const dir = dirname(require.resolve('@fontsource/atkinson-hyperlegible/package.json'));
+	return join(dir, 'files', `atkinson-hyperlegible-latin-${weight}-normal.woff`);
+}
+
+/** The custody receipt of one transfer: manifest, every signature's manifestation and the manifest hash. */
+export function receiptPdf(d: TransferData): Promise<Buffer> {
+	return new Promise((resolve, reject) => {
+		const doc = new PDFDocument({ size: 'A4', margin: 50, info: { Title: `Custody receipt ${d.transfer.number}`, Producer: 'Regolog' } });
+		const chunks: Buffer[] = [];
+		doc.on('data', (c: Buffer) => chunks.push(c));
+		doc.on('end', () => resolve(Buffer.concat(chunks)));
+		doc.on('error', reject);
+		doc.registerFont('body', fontFile(400));
+		doc.registerFont('bold', fontFile(700));
+		const x = d.transfer;
+		doc.font('bold').fontSize(18).fillColor('#0f2e2c').text(`Custody receipt ${x.number}`);
+		doc.font('body').fontSize(10).fillColor('#3f3c34').text(`Regolog · Brightwater Curation Facility · printed ${new Date().toISOString().replace('T', ' ').slice(0, 19)} UTC`);
+		doc.moveDown();
+		const row = (k: string, v: string) => {
+			doc.font('bold').fontSize(10).fillColor('#1c1b18').text(`${k}: `, { continued: true }).font('body').text(v || '—');
+		};
+		row('Direction', x.direction === 'outbound' ? 'Facility to lab' : 'Lab to facility (return)');
+		row('From', x.from.name ?? '');
+		row('To', x.to.name ?? '');
+		row('Request', x.request?.number ?? '—');
+		row('State', x.state);
+		row('Container and seal', `${x.container}${x.seal ? ` · seal ${x.seal}` : ''}`);
+		row('Packaging atmosphere and temperature', [x.atmosphere, x.temperature].filter(Boolean).join(' · '));
+		row('Coolant', x.coolantLabel);
+		row('Carrier and tracking', [x.carrier, x.trackingRef].filter(Boolean).join(' · '));
+		row('Expected arrival', x.expectedArrival ?? '');
+		doc.moveDown();
+		doc.font('bold').fontSize(13).fillColor('#0f2e2c').text('Items');
+		doc.font('body').fontSize(10).fillColor('#1c1b18');
+		for (const it of d.items) {
+			doc.text(`${it.code}    ${formatMg(it.massUg)}${it.expandedUg !== null ? ` ± ${(it.expandedUg / 1000).toFixed(4)} mg (U, k = 2)` : ''}`);
+		}
+		doc.text(`Total: ${formatMg(d.items.reduce((s, i) => s + i.massUg, 0))} in ${d.items.length} item(s)`);
+		doc.moveDown();
+		doc.font('bold').fontSize(13).fillColor('#0f2e2c').text('Signatures');
+		if (!d.signatures.length) doc.font('body').fontSize(10).fillColor('#1c1b18').text('Not signed yet.');
+		for (const s of d.signatures) {
+			doc.font('bold').fontSize(10).fillColor('#1c1b18').text(`${s.meaningLabel}`);
+			doc.font('body').text(`Signed by ${s.printedName} (${s.roleLabel}, ${s.email}) at ${s.signedAt.replace('T', ' ').slice(0, 19)} UTC`);
+			if (s.note) doc.text(`Note: ${s.note}`);
+			doc.text(`Manifest SHA-256: ${s.manifestSha256} ${s.verifies ? '(matches the current manifest)' : '(DOES NOT MATCH the current manifest)'}`);
+			doc.moveDown(0.5);
+		}
+		doc.moveDown();
+		doc.font('bold').fontSize(10).text('Current manifest SHA-256: ', { continued: true }).font('body').text(d.manifestSha256);
+		doc.font('body').fontSize(8).fillColor('#6f6a5c').text(
+			'Each signature binds the signer, the meaning, the time and the SHA-256 (FIPS 180-4) of the canonical JSON manifest (RFC 8785). ' +
+				'A signature whose hash differs from the current manifest no longer verifies.',
+			{ width: 495 }
+		);
+		doc.end();
+	});
+}
