@@ -84,7 +84,21 @@ const MATRIX: Record<string, Record<string, Case>> = {
 		PATCH: { path: `/api/users/${SOME_UUID}`, body: { name: 'x' }, expect: only(['admin'], 401) }
 	},
 	// registry
-	'/collections': { GET: { path: '/collections', expect: only(['admin', 'curator', 'auditor'], 303) } },
+	'/collections': {
+		GET: { path: '/collections', expect: only(['admin', 'curator', 'auditor'], 303) },
+		POST: { path: '/collections?/rules', body: 'prefix=', expect: only(['admin'], 401) }
+	},
+	'/items/new': {
+		GET: { path: '/items/new', expect: only(['admin', 'curator'], 303) },
+		POST: { path: '/items/new', body: 'collection=', expect: only(['admin', 'curator'], 401) }
+	},
+	'/items/import': { GET: { path: '/items/import', expect: only(['admin', 'curator'], 303) } },
+	'/balances': {
+		GET: { path: '/balances', expect: only(['admin', 'curator', 'auditor'], 303) },
+		POST: { path: '/balances?/create', body: 'name=', expect: only(['admin'], 401) }
+	},
+	'/api/items/import': { POST: { path: '/api/items/import', body: {}, expect: only(['admin', 'curator'], 401) } },
+	'/api/items/import/template': { GET: { path: '/api/items/import/template', expect: only(['admin', 'curator'], 401) } },
 	'/items': { GET: { path: '/items', expect: all(200, 303) } },
 	'/items/[code]': { GET: { path: `/items/${FACILITY_ITEM}`, expect: { anon: 303, admin: 200, curator: 200, auditor: 200, lab: 404 } } },
 	'/items/[code]/split': { GET: { path: `/items/${FACILITY_ITEM}/split`, expect: only(['admin', 'curator'], 303) } },
