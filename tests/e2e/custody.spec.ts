@@ -34,8 +34,10 @@ test('a lab asks, the curator grants, splits and ships, the lab signs and report
 
 	// The curator sees it on the worklist, grants it, splits an aliquot and sets it aside.
 	await curator.reload();
-	await expect(curator.getByTestId('work-review')).toContainText(number);
-	await curator.getByTestId('work-review').getByRole('link', { name: number }).click();
+	await expect(curator.getByTestId('work-review')).toBeVisible();
+	await curator.getByRole('navigation', { name: 'Main' }).getByRole('link', { name: 'Requests' }).click();
+	await curator.getByLabel('Search').fill(number);
+	await curator.getByRole('link', { name: number, exact: true }).click();
 	await curator.getByLabel('Mass to grant (mg)').fill('0.800');
 	await curator.getByRole('button', { name: 'Grant' }).click();
 	await expect(curator.getByTestId('request-state')).toHaveText('Granted');
