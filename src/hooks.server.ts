@@ -1,6 +1,7 @@
 import { error, redirect, type Handle, type HandleServerError, type ServerInit } from '@sveltejs/kit';
 import { building } from '$app/environment';
 import { startOutboxSender } from '$lib/server/outbox';
+import { startDocumentCleanup } from '$lib/server/documents/cleanup';
 import { randomUUID } from 'node:crypto';
 import { lucia } from '$lib/server/auth/lucia';
 import { decide } from '$lib/server/auth/access';
@@ -136,4 +137,6 @@ export const handleError: HandleServerError = ({ error, event, status }) => {
 export const init: ServerInit = async () => {
 	// The mail outbox is drained in the background; a mail outage only delays delivery.
 	if (!building) startOutboxSender();
+	// objects left in the bucket without a record (a failed save) are removed after a grace period
+	if (!building) startDocumentCleanup(models);
 };

@@ -12,13 +12,14 @@ export function navFor(role: Role | null): NavItem[] {
 		{ href: '/', label: 'Worklist' },
 		{ href: '/collections', label: 'Collections' },
 		{ href: '/items', label: 'Items' },
-		{ href: '/scan', label: 'Scan' }
+		{ href: '/scan', label: 'Scan' },
+		{ href: '/reports', label: 'Blank reports' }
 	];
 	switch (role) {
 		case 'curator':
 			return [...common, { href: '/balances', label: 'Balances' }, { href: '/account', label: 'Account' }];
 		case 'lab_member':
-			return [{ href: '/', label: 'Worklist' }, { href: '/items', label: 'Our material' }, { href: '/scan', label: 'Scan' }, { href: '/account', label: 'Account' }];
+			return [{ href: '/', label: 'Worklist' }, { href: '/items', label: 'Our material' }, { href: '/reports', label: 'Blank reports' }, { href: '/scan', label: 'Scan' }, { href: '/account', label: 'Account' }];
 		case 'auditor':
 			return [...common, { href: '/account', label: 'Account' }];
 		case 'admin':
