@@ -2,6 +2,7 @@ import { error, redirect, type Handle, type HandleServerError, type ServerInit }
 import { building } from '$app/environment';
 import { startOutboxSender } from '$lib/server/outbox';
 import { remindOverdueUsage } from '$lib/server/custody/usage';
+import { startDocumentCleanup } from '$lib/server/documents/cleanup';
 import { randomUUID } from 'node:crypto';
 import { lucia } from '$lib/server/auth/lucia';
 import { decide } from '$lib/server/auth/access';
@@ -142,5 +143,7 @@ export const init: ServerInit = async () => {
 		const remind = () => remindOverdueUsage(models()).catch((e) => console.error('[regolog] usage reminders failed:', (e as Error).message));
 		setInterval(remind, 3600_000).unref();
 		setTimeout(remind, 10_000).unref();
+		// objects left in the bucket without a record (a failed save) are removed after a grace period
+		startDocumentCleanup(models);
 	}
 };

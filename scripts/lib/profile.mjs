@@ -48,6 +48,9 @@ export function appEnv(pr) {
 		REGOLOG_SMTP_PORT: String(pr.smtpPort),
 		REGOLOG_MAIL_DIR: pr.mailDir,
 		REGOLOG_SMTP_PID_FILE: resolve(pr.root, 'smtp.pid'),
+		// adapter-node refuses bodies above BODY_SIZE_LIMIT (512 KiB by default): let documents up to
+		// their own limit through; the upload endpoint enforces that limit itself while streaming.
+		BODY_SIZE_LIMIT: process.env.BODY_SIZE_LIMIT ?? String(Number(process.env.REGOLOG_DOCUMENT_MAX_BYTES ?? 50 * 1024 * 1024) + 1024 * 1024),
 		// Ports the tests themselves use: a scratch cluster, a scratch object store, the API test server.
 		REGOLOG_TEST_PORT_SCRATCH_DB: String(pr.portBase + 3),
 		REGOLOG_TEST_PORT_SCRATCH_S3: String(pr.portBase + 4),

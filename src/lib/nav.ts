@@ -5,32 +5,32 @@ export interface NavItem {
 	label: string;
 }
 
+const L = {
+	work: { href: '/', label: 'Worklist' },
+	collections: { href: '/collections', label: 'Collections' },
+	items: { href: '/items', label: 'Items' },
+	handling: { href: '/handling', label: 'Handling' },
+	requests: { href: '/requests', label: 'Requests' },
+	transfers: { href: '/transfers', label: 'Transfers' },
+	reports: { href: '/reports', label: 'Blank reports' },
+	scan: { href: '/scan', label: 'Scan' },
+	balances: { href: '/balances', label: 'Balances' },
+	admin: { href: '/admin/users', label: 'Admin' },
+	account: { href: '/account', label: 'Account' }
+} satisfies Record<string, NavItem>;
+
 /** The main navigation each role sees. */
 export function navFor(role: Role | null): NavItem[] {
-	if (!role) return [{ href: '/', label: 'Overview' }];
-	const common: NavItem[] = [
-		{ href: '/', label: 'Worklist' },
-		{ href: '/collections', label: 'Collections' },
-		{ href: '/items', label: 'Items' },
-		{ href: '/requests', label: 'Requests' },
-		{ href: '/transfers', label: 'Transfers' },
-		{ href: '/scan', label: 'Scan' }
-	];
 	switch (role) {
+		case null:
+			return [{ href: '/', label: 'Overview' }];
 		case 'curator':
-			return [...common, { href: '/balances', label: 'Balances' }, { href: '/account', label: 'Account' }];
+			return [L.work, L.collections, L.items, L.handling, L.requests, L.transfers, L.reports, L.balances, L.scan, L.account];
 		case 'lab_member':
-			return [
-				{ href: '/', label: 'Worklist' },
-				{ href: '/requests', label: 'Requests' },
-				{ href: '/transfers', label: 'Transfers' },
-				{ href: '/items', label: 'Our material' },
-				{ href: '/scan', label: 'Scan' },
-				{ href: '/account', label: 'Account' }
-			];
+			return [L.work, L.requests, L.transfers, { href: '/items', label: 'Our material' }, L.reports, L.scan, L.account];
 		case 'auditor':
-			return [...common, { href: '/account', label: 'Account' }];
+			return [{ href: '/', label: 'Overview' }, L.collections, L.items, L.handling, L.requests, L.transfers, L.reports, L.scan, L.account];
 		case 'admin':
-			return [...common, { href: '/balances', label: 'Balances' }, { href: '/admin/users', label: 'Users' }, { href: '/admin/labs', label: 'Labs' }, { href: '/account', label: 'Account' }];
+			return [L.work, L.collections, L.items, L.handling, L.requests, L.transfers, L.reports, L.balances, L.admin, L.account];
 	}
 }

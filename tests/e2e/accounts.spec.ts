@@ -3,10 +3,10 @@ import { test, expect } from '@playwright/test';
 const PASSWORD = process.env.REGOLOG_DEMO_PASSWORD || 'brightwater-demo';
 
 const ROLES: { email: string; role: string; sees: string[]; notSees: string[] }[] = [
-	{ email: 'admin@brightwater.example', role: 'Administrator', sees: ['Users', 'Labs', 'Balances'], notSees: ['Our material'] },
-	{ email: 'curator@brightwater.example', role: 'Curator', sees: ['Collections', 'Items', 'Balances'], notSees: ['Users', 'Labs'] },
-	{ email: 'auditor@brightwater.example', role: 'Auditor', sees: ['Collections', 'Items'], notSees: ['Users', 'Balances'] },
-	{ email: 'analyst@fennick.example', role: 'Lab member', sees: ['Our material'], notSees: ['Users', 'Balances', 'Collections'] }
+	{ email: 'admin@brightwater.example', role: 'Administrator', sees: ['Admin', 'Balances', 'Handling'], notSees: ['Our material'] },
+	{ email: 'curator@brightwater.example', role: 'Curator', sees: ['Collections', 'Items', 'Balances', 'Requests'], notSees: ['Admin'] },
+	{ email: 'auditor@brightwater.example', role: 'Auditor', sees: ['Collections', 'Items', 'Transfers'], notSees: ['Admin', 'Balances'] },
+	{ email: 'analyst@fennick.example', role: 'Lab member', sees: ['Our material', 'Requests', 'Blank reports'], notSees: ['Admin', 'Balances', 'Collections'] }
 ];
 
 for (const r of ROLES) {

@@ -124,6 +124,23 @@ const MATRIX: Record<string, Record<string, Case>> = {
 	'/api/items/[code]/label': { GET: { path: `/api/items/${FACILITY_ITEM}/label`, expect: { anon: 401, admin: 200, curator: 200, auditor: 200, lab: 404 } } },
 	'/api/labels': { POST: { path: '/api/labels', body: {}, expect: all(422, 401) } },
 	'/api/scan/[code]': { GET: { path: `/api/scan/${FACILITY_ITEM}`, expect: { anon: 401, admin: 200, curator: 200, auditor: 200, lab: 404 } } },
+	// documents (the demo report and its documents belong to Fennick: other labs get 404)
+	'/reports': { GET: { path: '/reports', expect: all(200, 303) } },
+	'/reports/new': { GET: { path: '/reports/new', expect: { anon: 303, admin: 200, curator: 200, lab: 200, auditor: 403 } } },
+	'/reports/[id]': { GET: { path: `/reports/${SOME_UUID}`, expect: all(404, 303) } },
+	'/api/documents': {
+		GET: { path: `/api/documents?subject=item&ref=${FACILITY_ITEM}`, expect: { anon: 401, admin: 200, curator: 200, auditor: 200, lab: 404 } },
+		POST: { path: `/api/documents?subject=item&ref=${FACILITY_ITEM}&kind=other&name=a.txt`, body: '', expect: { anon: 401, admin: 'ok', curator: 'ok', auditor: 403, lab: 404 } }
+	},
+	'/api/documents/[id]': { GET: { path: `/api/documents/${SOME_UUID}`, expect: all(404, 401) } },
+	'/api/documents/[id]/file': { GET: { path: `/api/documents/${SOME_UUID}/file`, expect: all(404, 401) } },
+	'/api/blank-control-reports': {
+		GET: { path: '/api/blank-control-reports', expect: all(200, 401) },
+		POST: { path: '/api/blank-control-reports?title=x', body: '', expect: { anon: 401, admin: 422, curator: 422, auditor: 403, lab: 422 } }
+	},
+	'/api/blank-control-reports/template': { GET: { path: '/api/blank-control-reports/template', expect: all(200, 401) } },
+	'/api/blank-control-reports/[id]': { GET: { path: `/api/blank-control-reports/${SOME_UUID}`, expect: all(404, 401) } },
+	'/api/blank-control-reports/[id]/pdf': { GET: { path: `/api/blank-control-reports/${SOME_UUID}/pdf`, expect: all(404, 401) } },
 	// trail
 	'/api/trail/verify': { GET: { path: '/api/trail/verify', expect: only(['admin', 'auditor'], 401) } },
 	// custody

@@ -35,6 +35,16 @@ export const config = {
 		get secretAccessKey() { return env('REGOLOG_S3_SECRET_KEY', 'S3RVER'); },
 		get forcePathStyle() { return env('REGOLOG_S3_PATH_STYLE', 'true') === 'true'; }
 	},
+	documents: {
+		/** largest document accepted, in bytes (default 50 MiB) */
+		get maxBytes() { return int('REGOLOG_DOCUMENT_MAX_BYTES', 50 * 1024 * 1024); },
+		/** largest blank-control CSV accepted, in bytes (default 2 MiB); it is parsed in memory */
+		get reportMaxBytes() { return int('REGOLOG_REPORT_MAX_BYTES', 2 * 1024 * 1024); },
+		/** objects without a record younger than this are left alone by the clean-up (default 1 h) */
+		get orphanGraceMinutes() { return int('REGOLOG_ORPHAN_GRACE_MINUTES', 60); },
+		/** how often the server runs the clean-up (default every 6 h) */
+		get cleanupEveryMinutes() { return int('REGOLOG_CLEANUP_EVERY_MINUTES', 360); }
+	},
 	mail: {
 		get host() { return env('REGOLOG_SMTP_HOST', '127.0.0.1'); },
 		get port() { return int('REGOLOG_SMTP_PORT', 54312); },

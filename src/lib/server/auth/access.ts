@@ -15,6 +15,8 @@ export const STAFF = ['admin', 'curator', 'auditor'] as const satisfies readonly
 export const CURATORS = ['curator', 'admin'] as const satisfies readonly Role[];
 export const ADMINS = ['admin'] as const satisfies readonly Role[];
 export const AUDITORS = ['auditor', 'admin'] as const satisfies readonly Role[];
+/** who may upload documents and blank-control reports: everybody but the read-only auditor */
+export const UPLOADERS = ['admin', 'curator', 'lab_member'] as const satisfies readonly Role[];
 
 export const ACCESS: Record<string, Rule> = {
 	'/': { '*': 'public' },
@@ -85,7 +87,18 @@ export const ACCESS: Record<string, Rule> = {
 	'/labels': { GET: 'signed-in' },
 	'/api/items/[code]/label': { GET: 'signed-in' },
 	'/api/labels': { POST: 'signed-in' },
-	'/api/scan/[code]': { GET: 'signed-in' }
+	'/api/scan/[code]': { GET: 'signed-in' },
+	// documents
+	'/reports': { GET: 'signed-in' },
+	'/reports/new': { GET: UPLOADERS },
+	'/reports/[id]': { GET: 'signed-in' },
+	'/api/documents': { GET: 'signed-in', POST: UPLOADERS },
+	'/api/documents/[id]': { GET: 'signed-in' },
+	'/api/documents/[id]/file': { GET: 'signed-in' },
+	'/api/blank-control-reports': { GET: 'signed-in', POST: UPLOADERS },
+	'/api/blank-control-reports/template': { GET: 'signed-in' },
+	'/api/blank-control-reports/[id]': { GET: 'signed-in' },
+	'/api/blank-control-reports/[id]/pdf': { GET: 'signed-in' }
 };
 
 export function audienceFor(routeId: string | null, method: string): Audience | null {

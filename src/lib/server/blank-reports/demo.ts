@@ -1,0 +1,93 @@
+import { QueryTypes, type Sequelize } from 'sequelize';
+import { appendTrail, SYSTEM_ACTOR } from '../trail';
+import { registerSpecimen } from '../registry/items';
+import { SYSTEM_WHO, type Who } from '../registry/common';
+import { ApiProblem } from '../api';
+import { COLUMNS } from '../../blank-report';
+import { createReport } from './service';
+
+export const DEMO_REPORT_TITLE = 'Hot-water extract of a Chamber A aliquot, chiral GC-MS run 1';
+const DEMO_BLANK_DESCRIPTION = 'Procedural blank: baked fused-silica vial carried through hot-water extraction and acid hydrolysis alongside the Chamber A aliquot';
+
+/**
+ * The demo table of Fennick Organics Lab (invented values, nmol/g): a protein amino acid with an
+ * L-excess and a noticeable blank share (alanine), a non-protein one well above its blanks
+ * (isovaline), one close to its blanks (aspartic acid), and glycine, achiral, with one blank.
+ */
+const SAMPLE: [string, 'L' | 'D' | '', number[]][] = [
+	['alanine', 'L', [14.8, 15.3, 15.0]],
+	['alanine', 'D', [9.1, 9.4, 9.0]],
+	['isovaline', 'L', [4.6, 4.9, 4.4]],
+	['isovaline', 'D', [4.1, 4.3, 4.0]],
+	['aspartic acid', 'L', [0.9, 1.1, 0.8]],
+	['aspartic acid', 'D', [0.5, 0.6, 0.4]],
+	['glycine', '', [22.1, 23.0]]
+];
+const BLANK: [string, 'L' | 'D' | '', number[]][] = [
+	['alanine', 'L', [2.1, 2.6, 1.9, 2.4]],
+	['alanine', 'D', [0.4, 0.6, 0.5, 0.5]],
+	['isovaline', 'L', [0.02, 0.03, 0.02, 0.03]],
+	['isovaline', 'D', [0.02, 0.02, 0.03, 0.02]],
+	['aspartic acid', 'L', [0.6, 0.9, 0.7, 0.5]],
+	['aspartic acid', 'D', [0.3, 0.4, 0.35, 0.3]],
+	['glycine', '', [3.1]]
+];
+
+export function demoCsv(sampleCode: string, blankCode: string): string {
+	const lines = [COLUMNS.join(',')];
+	const add = (code: string, rows: typeof SAMPLE) => {
+		for (const [analyte, e, values] of rows) values.forEach((v, i) => lines.push([analyte, e, code, i + 1, v, 'nmol/g', ''].join(',')));
+	};
+	add(sampleCode, SAMPLE);
+	add(blankCode, BLANK);
+	return lines.join('\r\n') + '\r\n';
+}
+
+/**
+ * One blank-control report of Fennick Organics Lab on the first TRN aliquot it holds, with a
+ * procedural blank item of its own. Idempotent: nothing happens when the report exists. A storage
+ * outage skips the report (and says so) instead of failing the whole seed.
+ */
+export async function seedBlankControlDemo(sq: Sequelize, log: (s: string) => void = () => {}) {
+	const [lab] = await sq.query<{ id: string }>(`SELECT id FROM labs WHERE name = 'Fennick Organics Lab'`, { type: QueryTypes.SELECT });
+	const [user] = await sq.query<{ id: string; email: string }>(`SELECT id, email FROM users WHERE email = 'analyst@fennick.example'`, { type: QueryTypes.SELECT });
+	if (!lab || !user) return;
+	const exists = await sq.query('SELECT 1 FROM blank_control_reports WHERE title = :title AND lab_id = :lab', { type: QueryTypes.SELECT, replacements: { title: DEMO_REPORT_TITLE, lab: lab.id } });
+	if (exists.length) return;
+	const [sample] = await sq.query<{ code: string }>(
+		`SELECT i.code FROM items i JOIN collections c ON c.id = i.collection_id
+		 WHERE c.prefix = 'TRN' AND i.kind = 'aliquot' AND i.holder_lab_id = :lab ORDER BY i.serial LIMIT 1`,
+		{ type: QueryTypes.SELECT, replacements: { lab: lab.id } }
+	);
+	if (!sample) return;
+	let [blank] = await sq.query<{ code: string }>(
+		`SELECT i.code FROM items i JOIN collections c ON c.id = i.collection_id WHERE c.prefix = 'TRN' AND i.kind = 'blank' AND i.description = :d LIMIT 1`,
+		{ type: QueryTypes.SELECT, replacements: { d: DEMO_BLANK_DESCRIPTION } }
+	);
+	if (!blank) {
+		const [curator] = await sq.query<{ id: string; email: string }>(`SELECT id, email FROM users WHERE email = 'curator@brightwater.example'`, { type: QueryTypes.SELECT });
+		const staff: Who = curator ? { id: curator.id, label: curator.email, role: 'curator', labId: null } : SYSTEM_WHO;
+		const item = await registerSpecimen(sq, staff, {
+			collection: 'TRN', kind: 'blank', massUg: 1, description: DEMO_BLANK_DESCRIPTION,
+			container: 'Fused-silica vial, baked 500 °C', storagePlace: 'Fennick Organics Lab'
+		});
+		await sq.transaction(async (t) => {
+			const [row] = await sq.query<{ id: string }>(`UPDATE items SET state = 'on_loan', holder_lab_id = :lab, updated_at = now() WHERE code = :code RETURNING id`, {
+				type: QueryTypes.SELECT, replacements: { code: item.code, lab: lab.id }, transaction: t
+			});
+			await appendTrail(sq, t, {
+				actor: SYSTEM_ACTOR, action: 'item.placed_on_loan', subjectType: 'item', subjectId: row.id,
+				before: { state: 'stored', holder: null }, after: { code: item.code, state: 'on_loan', holderLabId: lab.id, note: 'demo procedural blank' }
+			});
+		});
+		blank = { code: item.code };
+	}
+	const who: Who = { id: user.id, label: user.email, role: 'lab_member', labId: lab.id };
+	try {
+		await createReport(sq, who, { title: DEMO_REPORT_TITLE, fileName: 'fennick-chamber-a-run1.csv', contentType: 'text/csv', bytes: Buffer.from(demoCsv(sample.code, blank.code)) });
+		log(`demo blank-control report on ${sample.code} present`);
+	} catch (e) {
+		if (e instanceof ApiProblem && e.code === 'storage_unavailable') log('demo blank-control report skipped: the document store is not reachable');
+		else throw e;
+	}
+}
