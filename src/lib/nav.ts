@@ -16,12 +16,12 @@ export function navFor(role: Role | null): NavItem[] {
 	];
 	switch (role) {
 		case 'curator':
-			return [...common, { href: '/balances', label: 'Balances' }, { href: '/account', label: 'Account' }];
+			return [...common, { href: '/handling', label: 'Handling' }, { href: '/balances', label: 'Balances' }, { href: '/account', label: 'Account' }];
 		case 'lab_member':
 			return [{ href: '/', label: 'Worklist' }, { href: '/items', label: 'Our material' }, { href: '/scan', label: 'Scan' }, { href: '/account', label: 'Account' }];
 		case 'auditor':
-			return [...common, { href: '/account', label: 'Account' }];
+			return [...common, { href: '/handling', label: 'Handling' }, { href: '/account', label: 'Account' }];
 		case 'admin':
-			return [...common, { href: '/balances', label: 'Balances' }, { href: '/admin/users', label: 'Users' }, { href: '/admin/labs', label: 'Labs' }, { href: '/account', label: 'Account' }];
+			return [...common, { href: '/handling', label: 'Handling' }, { href: '/balances', label: 'Balances' }, { href: '/admin/users', label: 'Users' }, { href: '/admin/labs', label: 'Labs' }, { href: '/account', label: 'Account' }];
 	}
 }

@@ -110,6 +110,21 @@ const MATRIX: Record<string, Record<string, Case>> = {
 	'/api/items/[code]/label': { GET: { path: `/api/items/${FACILITY_ITEM}/label`, expect: { anon: 401, admin: 200, curator: 200, auditor: 200, lab: 404 } } },
 	'/api/labels': { POST: { path: '/api/labels', body: {}, expect: all(422, 401) } },
 	'/api/scan/[code]': { GET: { path: `/api/scan/${FACILITY_ITEM}`, expect: { anon: 401, admin: 200, curator: 200, auditor: 200, lab: 404 } } },
+	// handling
+	'/handling': { GET: { path: '/handling', expect: only(['admin', 'curator', 'auditor'], 303) } },
+	'/handling/new': {
+		GET: { path: '/handling/new', expect: only(['admin', 'curator'], 303) },
+		POST: { path: '/handling/new', body: 'items=', expect: only(['admin', 'curator'], 401) }
+	},
+	'/audit/items/[code]': { GET: { path: `/audit/items/${FACILITY_ITEM}`, expect: only(['admin', 'curator', 'auditor'], 303) } },
+	'/api/handling-sessions': {
+		GET: { path: '/api/handling-sessions', expect: only(['admin', 'curator', 'auditor'], 401) },
+		POST: { path: '/api/handling-sessions', body: {}, expect: only(['admin', 'curator'], 401) }
+	},
+	'/api/handling-sessions/[id]': { GET: { path: `/api/handling-sessions/${SOME_UUID}`, expect: all(404, 401) } },
+	'/api/items/[code]/exposure': { GET: { path: `/api/items/${FACILITY_ITEM}/exposure`, expect: { anon: 401, admin: 200, curator: 200, auditor: 200, lab: 404 } } },
+	'/api/items/[code]/history': { GET: { path: `/api/items/${FACILITY_ITEM}/history`, expect: only(['admin', 'curator', 'auditor'], 401) } },
+	'/api/splits/[id]/handling-session': { POST: { path: `/api/splits/${SOME_UUID}/handling-session`, body: {}, expect: only(['admin', 'curator'], 401) } },
 	// trail
 	'/api/trail/verify': { GET: { path: '/api/trail/verify', expect: only(['admin', 'auditor'], 401) } }
 };

@@ -2,6 +2,7 @@ import { QueryTypes, type Sequelize } from 'sequelize';
 import { hashPassword } from './auth/password';
 import { appendTrail, SYSTEM_ACTOR } from './trail';
 import { seedRegistry } from './seed-registry';
+import { seedHandling } from './handling/seed';
 
 export const DEMO_LABS = [
 	{ name: 'Fennick Organics Lab', shortName: 'Fennick', institution: 'Fennick Institute (invented)', contactEmail: 'lab@fennick.example' },
@@ -83,4 +84,5 @@ export async function seedDemo(sequelize: Sequelize, opts: { log?: (s: string) =
 	});
 	log('demo facility, labs and accounts present');
 	await seedRegistry(sequelize, log);
+	await seedHandling(sequelize, log);
 }

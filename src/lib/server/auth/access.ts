@@ -63,7 +63,16 @@ export const ACCESS: Record<string, Rule> = {
 	'/labels': { GET: 'signed-in' },
 	'/api/items/[code]/label': { GET: 'signed-in' },
 	'/api/labels': { POST: 'signed-in' },
-	'/api/scan/[code]': { GET: 'signed-in' }
+	'/api/scan/[code]': { GET: 'signed-in' },
+	// handling
+	'/handling': { GET: STAFF },
+	'/handling/new': { GET: CURATORS, POST: CURATORS },
+	'/audit/items/[code]': { GET: STAFF },
+	'/api/handling-sessions': { GET: STAFF, POST: CURATORS },
+	'/api/handling-sessions/[id]': { GET: 'signed-in' },
+	'/api/items/[code]/exposure': { GET: 'signed-in' },
+	'/api/items/[code]/history': { GET: STAFF },
+	'/api/splits/[id]/handling-session': { POST: CURATORS }
 };
 
 export function audienceFor(routeId: string | null, method: string): Audience | null {

@@ -5,6 +5,7 @@ import { formatCode } from '../../domain/codes';
 import { formatMg } from '../../domain/mass';
 import { ApiProblem } from '../api';
 import { appendTrail } from '../trail';
+import { checkSplitSession } from '../handling/sessions';
 import { balanceForWeighing, type BalanceView } from './balances';
 import { findItem, micrograms, shortText, takeSerials, trailActor, type ItemRow, type Who } from './common';
 
@@ -26,7 +27,9 @@ export const splitInput = z.strictObject({
 		.max(MAX_CHILDREN, `at most ${MAX_CHILDREN} children in one split`),
 	parentAfterUg: micrograms({ allowZero: true }).optional(),
 	balanceId: z.string({ error: 'must be a balance id' }).optional(),
-	reason: shortText(2000).optional()
+	reason: shortText(2000).optional(),
+	// the handling session the split happened in; without one the split is flagged until one is attached
+	handlingSessionId: z.string({ error: 'must be a handling session id' }).optional()
 });
 export type SplitRequest = z.infer<typeof splitInput>;
 
@@ -106,19 +109,21 @@ export async function splitItem(sq: Sequelize, who: Who, parentCode: string, inp
 		);
 		const reason = input.reason || undefined;
 		refuse(budget, parent, reason);
+		if (input.handlingSessionId !== undefined) await checkSplitSession(sq, t, input.handlingSessionId, parent.id, parent.code);
 
 		// uncertainty of the parent's recorded mass after: measured, or propagated (GUM 5.1.2)
 		const childUs = input.children.map(() => uChild);
 		const uAfter = budget.reweighed ? balance!.netUUg : Math.sqrt(u0 * u0 + childUs.reduce((a, u) => a + u * u, 0));
 		const [split] = await sq.query<{ id: string; at: Date }>(
-			`INSERT INTO splits (parent_id, balance_id, parent_before_ug, parent_after_ug, children_total_ug, loss_ug, loss_u_ug, reweighed, verdict, reason, operator_id)
-			 VALUES (:parent, :balance, :p0, :p1, :total, :loss, :lossU, :reweighed, :verdict, :reason, :op) RETURNING id, at`,
+			`INSERT INTO splits (parent_id, balance_id, parent_before_ug, parent_after_ug, children_total_ug, loss_ug, loss_u_ug, reweighed, verdict, reason, operator_id, handling_session_id)
+			 VALUES (:parent, :balance, :p0, :p1, :total, :loss, :lossU, :reweighed, :verdict, :reason, :op, :session) RETURNING id, at`,
 			{
 				type: QueryTypes.SELECT,
 				transaction: t,
 				replacements: {
 					parent: parent.id, balance: balance?.id ?? null, p0: parent.mass_ug, p1: budget.parentAfterUg, total: budget.childrenTotalUg,
-					loss: budget.lossUg, lossU: budget.lossU, reweighed: budget.reweighed, verdict: budget.verdict, reason: reason ?? null, op: who.id
+					loss: budget.lossUg, lossU: budget.lossU, reweighed: budget.reweighed, verdict: budget.verdict, reason: reason ?? null, op: who.id,
+					session: input.handlingSessionId ?? null
 				}
 			}
 		);
@@ -215,6 +220,7 @@ export async function splitItem(sq: Sequelize, who: Who, parentCode: string, inp
 			reweighed: budget.reweighed,
 			verdict: budget.verdict,
 			reason: reason ?? null,
+			handlingSessionId: input.handlingSessionId ?? null,
 			issues: budget.issues.map((i) => i.message),
 			balance: balance ? { id: balance.id, name: balance.name } : null,
 			children: children.map((c) => ({ code: c.code, massUg: c.massUg, uUg: c.uUg, belowMinimum: c.belowMinimum }))
