@@ -1,4 +1,5 @@
-// `npm run bench:trail`: builds a trail of 1,000,000 events in a database of its own, verifies it
+// `npm run bench:trail`: builds a trail of 1,000,000 events in a database of its own (each with its
+// stored canonical body, as appendTrail writes it), verifies it
 // with verifyTrail, and compares verifyTrail's throughput with node's own SHA-256 over the same
 // bytes (each event's previous hash followed by its canonical JSON), measured in the same run.
 //
@@ -47,7 +48,7 @@ function eventAt(g: number): Omit<TrailRow, 'prev_hash' | 'hash'> {
 }
 
 const INSERT = `
-	INSERT INTO trail_events (seq, at, actor_id, actor_label, action, subject_type, subject_id, before, after, prev_hash, hash)
+	INSERT INTO trail_events (seq, at, actor_id, actor_label, action, subject_type, subject_id, before, after, prev_hash, hash, body)
 	SELECT g,
 	       timestamptz '2031-01-06 08:00:00+00' + g * interval '1 millisecond',
 	       NULL,
@@ -65,8 +66,8 @@ const INSERT = `
 	           'place', 'Nitrogen cabinet N2-3, shelf 4',
 	           'reason', 'Aliquot for Fennick Organics Lab – chiral GC',
 	           'children', jsonb_build_array('TRN-' || lpad((g + 1)::text, 7, '0'), 'TRN-' || lpad((g + 2)::text, 7, '0'))),
-	       h.prev, h.hash
-	FROM unnest($1::bigint[], $2::text[], $3::text[]) AS h(g, prev, hash)`;
+	       h.prev, h.hash, h.body
+	FROM unnest($1::bigint[], $2::text[], $3::text[], $4::text[]) AS h(g, prev, hash, body)`;
 
 async function buildChain(client: pg.Client): Promise<void> {
 	let prev = GENESIS_HASH;
@@ -75,14 +76,17 @@ async function buildChain(client: pg.Client): Promise<void> {
 		const seqs: number[] = [];
 		const prevs: string[] = [];
 		const hashes: string[] = [];
+		const bodies: string[] = [];
 		for (let g = lo; g <= hi; g++) {
-			const h = chainHash(prev, canonicalEvent(eventAt(g)));
+			const body = canonicalEvent(eventAt(g));
+			const h = chainHash(prev, body);
 			seqs.push(g);
 			prevs.push(prev);
 			hashes.push(h);
+			bodies.push(body);
 			prev = h;
 		}
-		await client.query(INSERT, [seqs, prevs, hashes]);
+		await client.query(INSERT, [seqs, prevs, hashes, bodies]);
 		if (hi % 200_000 === 0 || hi === N) log(`  ${hi.toLocaleString('en')} events written`);
 	}
 }

@@ -141,6 +141,21 @@ const MATRIX: Record<string, Record<string, Case>> = {
 	'/api/blank-control-reports/template': { GET: { path: '/api/blank-control-reports/template', expect: all(200, 401) } },
 	'/api/blank-control-reports/[id]': { GET: { path: `/api/blank-control-reports/${SOME_UUID}`, expect: all(404, 401) } },
 	'/api/blank-control-reports/[id]/pdf': { GET: { path: `/api/blank-control-reports/${SOME_UUID}/pdf`, expect: all(404, 401) } },
+	// handling
+	'/handling': { GET: { path: '/handling', expect: only(['admin', 'curator', 'auditor'], 303) } },
+	'/handling/new': {
+		GET: { path: '/handling/new', expect: only(['admin', 'curator'], 303) },
+		POST: { path: '/handling/new', body: 'items=', expect: only(['admin', 'curator'], 401) }
+	},
+	'/audit/items/[code]': { GET: { path: `/audit/items/${FACILITY_ITEM}`, expect: only(['admin', 'curator', 'auditor'], 303) } },
+	'/api/handling-sessions': {
+		GET: { path: '/api/handling-sessions', expect: only(['admin', 'curator', 'auditor'], 401) },
+		POST: { path: '/api/handling-sessions', body: {}, expect: only(['admin', 'curator'], 401) }
+	},
+	'/api/handling-sessions/[id]': { GET: { path: `/api/handling-sessions/${SOME_UUID}`, expect: all(404, 401) } },
+	'/api/items/[code]/exposure': { GET: { path: `/api/items/${FACILITY_ITEM}/exposure`, expect: { anon: 401, admin: 200, curator: 200, auditor: 200, lab: 404 } } },
+	'/api/items/[code]/history': { GET: { path: `/api/items/${FACILITY_ITEM}/history`, expect: only(['admin', 'curator', 'auditor'], 401) } },
+	'/api/splits/[id]/handling-session': { POST: { path: `/api/splits/${SOME_UUID}/handling-session`, body: {}, expect: only(['admin', 'curator'], 401) } },
 	// trail
 	'/api/trail/verify': { GET: { path: '/api/trail/verify', expect: only(['admin', 'auditor'], 401) } },
 	// custody

@@ -234,12 +234,62 @@ describe('the trail in the database', () => {
 			const hash = chainHash(row.prev_hash, canonicalEvent(row));
 			await asSuperuser(s2.name, async (c) => {
 				await c.query('SET session_replication_role = replica');
-				await c.query(`UPDATE trail_events SET after = '{"massUg": 1}', hash = $1 WHERE seq = 4`, [hash]);
+				// a thorough rewrite: the stored body too, so that event 4 agrees with itself
+				await c.query(`UPDATE trail_events SET after = '{"massUg": 1}', body = $2, hash = $1 WHERE seq = 4`, [hash, canonicalEvent(row)]);
 			});
 			// event 4 is consistent with itself; the chain breaks where event 5 still points to the old hash
 			expect(await verifyTrail(s2.sequelize)).toMatchObject({ ok: false, events: 4, firstBrokenAt: 5, reason: 'link to the previous event does not match' });
 		} finally {
 			await s2.drop();
+		}
+	});
+
+	it('finds a changed body, and a column changed without its body, at that event', async () => {
+		const s5 = await scratchDatabase('trail_body');
+		try {
+			await migrateUp(s5.sequelize);
+			await append(events(8), s5.sequelize);
+			const [[r]] = (await s5.sequelize.query('SELECT body, body_matches FROM trail_events WHERE seq = 3')) as [any[], unknown];
+			expect(r.body_matches).toBe(true);
+			const edit = (sql: string) =>
+				asSuperuser(s5.name, async (c) => {
+					await c.query('SET session_replication_role = replica');
+					await c.query(sql);
+				});
+			await edit(`UPDATE trail_events SET subject_id = 'TRN-9999' WHERE seq = 6`);
+			expect(await verifyTrail(s5.sequelize)).toMatchObject({ ok: false, events: 5, firstBrokenAt: 6, reason: 'content does not match its hash' });
+			await edit(`UPDATE trail_events SET body = replace(body, '"massUg":1001', '"massUg":1') WHERE seq = 2`);
+			expect(await verifyTrail(s5.sequelize, 3)).toMatchObject({ ok: false, events: 1, firstBrokenAt: 2 });
+			// with the generated column's definition gone, the same comparison is made row by row
+			await asSuperuser(s5.name, (c) => c.query('ALTER TABLE trail_events ALTER COLUMN body_matches DROP EXPRESSION'));
+			expect(await verifyTrail(s5.sequelize)).toMatchObject({ ok: false, firstBrokenAt: 2 });
+		} finally {
+			await s5.drop();
+		}
+	});
+
+	it('verifies events written before bodies were stored from their columns', async () => {
+		const s6 = await scratchDatabase('trail_old');
+		try {
+			await migrateUp(s6.sequelize);
+			await append(events(3), s6.sequelize);
+			// an event as it was written before migration 0031: no body
+			const row = { seq: 4, at: new Date('2031-02-01T12:00:00.250Z'), actor_id: null, actor_label: 'system', action: 'item.weighed', subject_type: 'item', subject_id: 'TRN-0004', before: null, after: { massUg: 5 } };
+			const [[head]] = (await s6.sequelize.query('SELECT hash FROM trail_events WHERE seq = 3')) as [any[], unknown];
+			await s6.sequelize.query(
+				`INSERT INTO trail_events (seq, at, actor_id, actor_label, action, subject_type, subject_id, before, after, prev_hash, hash)
+				 VALUES (4, :at, NULL, 'system', 'item.weighed', 'item', 'TRN-0004', 'null', '{"massUg": 5}', :prev, :hash)`,
+				{ replacements: { at: row.at, prev: head.hash, hash: chainHash(head.hash, canonicalEvent(row)) } }
+			);
+			await append(events(2, 'after'), s6.sequelize);
+			expect(await verifyTrail(s6.sequelize)).toEqual({ ok: true, events: 6, firstBrokenAt: null });
+			await asSuperuser(s6.name, async (c) => {
+				await c.query('SET session_replication_role = replica');
+				await c.query(`UPDATE trail_events SET after = '{"massUg": 6}' WHERE seq = 4`);
+			});
+			expect(await verifyTrail(s6.sequelize)).toMatchObject({ ok: false, events: 3, firstBrokenAt: 4, reason: 'content does not match its hash' });
+		} finally {
+			await s6.drop();
 		}
 	});
 

@@ -4,6 +4,7 @@ import { appendTrail, SYSTEM_ACTOR } from './trail';
 import { seedRegistry } from './seed-registry';
 import { seedCustody } from './seed-custody';
 import { seedBlankControlDemo } from './blank-reports/demo';
+import { seedHandling } from './handling/seed';
 
 export const DEMO_LABS = [
 	{ name: 'Fennick Organics Lab', shortName: 'Fennick', institution: 'Fennick Institute (invented)', contactEmail: 'lab@fennick.example' },
@@ -85,6 +86,7 @@ export async function seedDemo(sequelize: Sequelize, opts: { log?: (s: string) =
 	});
 	log('demo facility, labs and accounts present');
 	await seedRegistry(sequelize, log);
-	if (accounts) await seedCustody(sequelize, log);
+	await seedHandling(sequelize, log);
 	await seedBlankControlDemo(sequelize, log);
+	if (accounts) await seedCustody(sequelize, log);
 }

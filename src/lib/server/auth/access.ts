@@ -98,7 +98,16 @@ export const ACCESS: Record<string, Rule> = {
 	'/api/blank-control-reports': { GET: 'signed-in', POST: UPLOADERS },
 	'/api/blank-control-reports/template': { GET: 'signed-in' },
 	'/api/blank-control-reports/[id]': { GET: 'signed-in' },
-	'/api/blank-control-reports/[id]/pdf': { GET: 'signed-in' }
+	'/api/blank-control-reports/[id]/pdf': { GET: 'signed-in' },
+	// handling
+	'/handling': { GET: STAFF },
+	'/handling/new': { GET: CURATORS, POST: CURATORS },
+	'/audit/items/[code]': { GET: STAFF },
+	'/api/handling-sessions': { GET: STAFF, POST: CURATORS },
+	'/api/handling-sessions/[id]': { GET: 'signed-in' },
+	'/api/items/[code]/exposure': { GET: 'signed-in' },
+	'/api/items/[code]/history': { GET: STAFF },
+	'/api/splits/[id]/handling-session': { POST: CURATORS }
 };
 
 export function audienceFor(routeId: string | null, method: string): Audience | null {

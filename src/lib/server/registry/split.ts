@@ -6,6 +6,7 @@ import { formatCode } from '../../domain/codes';
 import { formatMg } from '../../domain/mass';
 import { ApiProblem } from '../api';
 import { appendTrail } from '../trail';
+import { checkSplitSession } from '../handling/sessions';
 import { balanceForWeighing, type BalanceView } from './balances';
 import { findItem, micrograms, shortText, takeSerials, trailActor, type ItemRow, type Who } from './common';
 
@@ -27,7 +28,9 @@ export const splitInput = z.strictObject({
 		.max(MAX_CHILDREN, `at most ${MAX_CHILDREN} children in one split`),
 	parentAfterUg: micrograms({ allowZero: true }).optional(),
 	balanceId: z.string({ error: 'must be a balance id' }).optional(),
-	reason: shortText(2000).optional()
+	reason: shortText(2000).optional(),
+	// the handling session the split happened in; without one the split is flagged until one is attached
+	handlingSessionId: z.string({ error: 'must be a handling session id' }).optional()
 });
 export type SplitRequest = z.infer<typeof splitInput>;
 
@@ -111,6 +114,7 @@ export async function splitItem(sq: Sequelize, who: Who, parentCode: string, inp
 		);
 		const reason = input.reason || undefined;
 		refuse(budget, parent, reason);
+		if (input.handlingSessionId !== undefined) await checkSplitSession(sq, t, input.handlingSessionId, parent.id, parent.code);
 
 		// uncertainty of the parent's recorded mass after: measured, or propagated (GUM 5.1.2)
 		const uAfter = budget.reweighed ? balance!.netUUg : Math.sqrt(u0 * u0 + input.children.length * uChild * uChild);
@@ -162,8 +166,8 @@ export async function splitItem(sq: Sequelize, who: Who, parentCode: string, inp
 
 		const [{ at }] = await sq.query<{ at: Date }>(
 			`WITH s AS (
-				INSERT INTO splits (id, parent_id, balance_id, parent_before_ug, parent_after_ug, children_total_ug, loss_ug, loss_u_ug, reweighed, verdict, reason, operator_id)
-				VALUES (:split, :parent, :balance, :p0, :p1, :total, :loss, :lossU, :reweighed, :verdict, :reason, :op) RETURNING at
+				INSERT INTO splits (id, parent_id, balance_id, parent_before_ug, parent_after_ug, children_total_ug, loss_ug, loss_u_ug, reweighed, verdict, reason, operator_id, handling_session_id)
+				VALUES (:split, :parent, :balance, :p0, :p1, :total, :loss, :lossU, :reweighed, :verdict, :reason, :op, :session) RETURNING at
 			), i AS (
 				INSERT INTO items (id, collection_id, serial, code, parent_id, depth, kind, description, initial_mass_ug, mass_ug, mass_u_ug,
 				                   holder_lab_id, container, storage_place, split_id, created_by)
@@ -186,7 +190,7 @@ export async function splitItem(sq: Sequelize, who: Who, parentCode: string, inp
 				transaction: t,
 				replacements: {
 					split: splitId, parent: parent.id, balance: balance?.id ?? null, p0: parent.mass_ug, p1: budget.parentAfterUg, total: budget.childrenTotalUg,
-					loss: budget.lossUg, lossU: budget.lossU, reweighed: budget.reweighed, verdict: budget.verdict, reason: reason ?? null, op: who.id,
+					loss: budget.lossUg, lossU: budget.lossU, reweighed: budget.reweighed, verdict: budget.verdict, reason: reason ?? null, op: who.id, session: input.handlingSessionId ?? null,
 					collection: parent.collection_id, depth: parent.depth + 1, u: balance?.netUUg ?? 0, U: balance?.netExpandedUg ?? 0, min: balance?.minimumWeightUg ?? 0,
 					uAfter: parent.mass_u_ug === null && !balance ? null : uAfter,
 					children: JSON.stringify(children.map((c) => ({ id: c.id, serial: c.serial, code: c.code, description: c.description, mass: c.massUg, u: c.uUg, container: c.container, storage: c.storagePlace }))),
@@ -208,6 +212,7 @@ export async function splitItem(sq: Sequelize, who: Who, parentCode: string, inp
 			reweighed: budget.reweighed,
 			verdict: budget.verdict,
 			reason: reason ?? null,
+			handlingSessionId: input.handlingSessionId ?? null,
 			issues: budget.issues.map((i) => i.message),
 			balance: balance ? { id: balance.id, name: balance.name } : null,
 			children: children.map((c) => ({ code: c.code, massUg: c.massUg, uUg: c.uUg, belowMinimum: c.belowMinimum }))
