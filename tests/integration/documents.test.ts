@@ -86,10 +86,16 @@ describe('documents over HTTP', () => {
 		expect(await count('documents')).toBe(before);
 	});
 
-	it('refuses attaching to subjects that are not attachable yet, and auditors may not upload', async () => {
-		const r = await raw(fennick, 'POST', `/api/documents?subject=transfer&ref=${randomUUID()}&kind=other&name=a.pdf`, PDF);
-		expect(r.status).toBe(400);
-		expect(r.json.error.code).toBe('not_attachable');
+	it('attaches to a lab’s own transfer but not to another lab’s or an unknown one, and auditors may not upload', async () => {
+		const unknown = await raw(fennick, 'POST', `/api/documents?subject=transfer&ref=${randomUUID()}&kind=other&name=a.pdf`, PDF);
+		expect(unknown.status).toBe(404);
+		const transfers = (await fennick.get('/api/transfers')).body.transfers as { id: string }[];
+		expect(transfers.length).toBeGreaterThan(0);
+		const own = await raw(fennick, 'POST', `/api/documents?subject=transfer&ref=${transfers[0].id}&kind=other&name=receipt-photo.pdf`, PDF);
+		expect(own.status, JSON.stringify(own.json)).toBe(201);
+		const marrow = await signedIn(DEMO.marrow);
+		const theirs = await raw(marrow, 'POST', `/api/documents?subject=transfer&ref=${transfers[0].id}&kind=other&name=b.pdf`, PDF);
+		expect(theirs.status).toBe(404);
 		const auditor = await signedIn(DEMO.auditor);
 		expect((await upload(auditor, fennickItem, PDF)).status).toBe(403);
 	});

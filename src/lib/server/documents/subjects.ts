@@ -106,3 +106,26 @@ registerSubject('blank_control_report', {
 		return row ? { type: 'blank_control_report', id: row.id, labId: row.lab_id, label: row.title, href: `/reports/${row.id}` } : null;
 	}
 });
+
+/**
+ * A subject read from one table row: `sql` selects id, label and lab_id (null: the facility) for
+ * `:id`. Visibility follows the lab: another lab's record answers 404 like an unknown one.
+ */
+function rowResolver(type: SubjectType, what: string, sql: string, href: (id: string) => string | null): SubjectResolver {
+	return {
+		async find(sq, who, ref) {
+			const s = await this.byId(sq, pathId(ref, what));
+			if (!s || !canSeeLab(who, s.labId)) throw new ApiProblem(404, 'not_found', `No such ${what} is visible to you.`);
+			return s;
+		},
+		async byId(sq, id) {
+			const [row] = await sq.query<{ id: string; label: string; lab_id: string | null }>(sql, { type: QueryTypes.SELECT, replacements: { id } });
+			return row ? { type, id: row.id, labId: row.lab_id, label: row.label, href: href(row.id) } : null;
+		}
+	};
+}
+
+registerSubject('transfer', rowResolver('transfer', 'transfer', `SELECT id, 'CT-' || lpad(number::text, 4, '0') AS label, coalesce(to_lab_id, from_lab_id) AS lab_id FROM transfers WHERE id = :id`, (id) => `/transfers/${id}`));
+registerSubject('request', rowResolver('request', 'allocation request', `SELECT id, 'AR-' || lpad(number::text, 4, '0') AS label, lab_id FROM allocation_requests WHERE id = :id`, (id) => `/requests/${id}`));
+registerSubject('usage_report', rowResolver('usage_report', 'usage report', `SELECT u.id, 'usage of ' || i.code AS label, u.lab_id FROM usage_reports u JOIN items i ON i.id = u.item_id WHERE u.id = :id`, () => null));
+registerSubject('handling_session', rowResolver('handling_session', 'handling session', `SELECT id, 'session ' || to_char(started_at AT TIME ZONE 'UTC', 'YYYY-MM-DD HH24:MI') AS label, NULL::uuid AS lab_id FROM handling_sessions WHERE id = :id`, () => '/handling'));
