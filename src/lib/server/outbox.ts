@@ -47,9 +47,10 @@ interface Due {
 
 /**
  * Sends due messages. Each is claimed with FOR UPDATE SKIP LOCKED, so several senders never
- * send one message twice; a failure schedules the next attempt with backoff.
+ * send one message twice; a failure schedules the next attempt with backoff. `onlyIds` sends
+ * just those queued messages, due or not (an operator's "send now").
  */
-export async function deliverDue(opts: { transport?: Transporter; limit?: number } = {}): Promise<{ sent: number; failed: number }> {
+export async function deliverDue(opts: { transport?: Transporter; limit?: number; onlyIds?: number[] } = {}): Promise<{ sent: number; failed: number }> {
 	const sequelize = models();
 	const transport = opts.transport ?? mailer();
 	let sent = 0;
@@ -58,9 +59,9 @@ export async function deliverDue(opts: { transport?: Transporter; limit?: number
 		const done = await sequelize.transaction(async (t) => {
 			const rows = await sequelize.query<Due>(
 				`SELECT id, to_address, subject, body_text, body_html, attempts FROM mail_outbox
-				 WHERE status = 'queued' AND next_attempt_at <= now()
+				 WHERE status = 'queued' AND ${opts.onlyIds ? 'id IN (:ids)' : 'next_attempt_at <= now()'}
 				 ORDER BY next_attempt_at, id LIMIT 1 FOR UPDATE SKIP LOCKED`,
-				{ type: QueryTypes.SELECT, transaction: t }
+				{ type: QueryTypes.SELECT, transaction: t, replacements: { ids: opts.onlyIds ?? [] } }
 			);
 			if (!rows.length) return null;
 			const m = rows[0];
