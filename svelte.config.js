@@ -8,16 +8,17 @@ const config = {
 		adapter: adapter({ out: 'build' }),
 		csrf: { trustedOrigins: [] },
 		// Content Security Policy for every page. SvelteKit adds a per-response nonce to
-		// script-src for its own start-up script, so no inline script runs without it. Pages carry
-		// no style attributes (Svelte's style directives go through the CSSOM, which CSP allows), so
-		// styles come only from our own stylesheets. blob: serves label PDFs opened from the page;
+		// script-src for its own start-up script, so no inline script runs without it. Our pages carry
+		// no style attributes (Svelte's style directives go through the CSSOM, which CSP allows). blob: serves label PDFs opened from the page;
 		// the scan page's camera stream needs no source.
 		csp: {
 			mode: 'nonce',
 			directives: {
 				'default-src': ['self'],
 				'script-src': ['self'],
-				'style-src': ['self'],
+				// our stylesheets, and the one style attribute SvelteKit's route announcer carries
+				// (allowed by its hash alone; no other inline style may apply)
+				'style-src': ['self', 'unsafe-hashes', 'sha256-S8qMpvofolR8Mpjy4kQvEm7m1q8clzU4dfDH0AmvZjo='],
 				'img-src': ['self', 'data:', 'blob:'],
 				'font-src': ['self'],
 				'connect-src': ['self'],
