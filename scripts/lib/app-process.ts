@@ -36,10 +36,13 @@ export async function startApp(port: number, env: Record<string, string>, { heal
 	throw new Error(`the app on ${base} did not become healthy:\n${out}`);
 }
 
+/** Stops the app; one that has not exited within a few seconds of SIGTERM is killed. */
 export async function stopApp(app: AppProcess | null, signal: NodeJS.Signals = 'SIGTERM') {
 	if (!app || app.child.exitCode !== null || app.child.signalCode !== null) return;
 	app.child.kill(signal);
+	const late = setTimeout(() => app.child.kill('SIGKILL'), 5000);
 	await app.exited;
+	clearTimeout(late);
 }
 
 export interface Answer {
