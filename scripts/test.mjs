@@ -1,6 +1,29 @@
 // `npm test`: the same set-up as `npm start` against a fresh test database and fresh fake
 // storage, then svelte-check, vitest, a production build and Playwright in Debian's Chromium.
+import { spawnSync } from 'node:child_process';
 import { ensureNodeModules, ensureTestTools, startStack, run, log } from './lib/stack.mjs';
+
+/**
+ * `npm audit` of the production dependencies: a high or critical finding fails the run. The audit
+ * asks the registry; when it cannot be reached the run says so plainly and goes on.
+ */
+function audit() {
+	const r = spawnSync('npm', ['audit', '--omit=dev', '--audit-level=high', '--json'], { encoding: 'utf8', timeout: 60_000 });
+	let report = null;
+	try {
+		report = JSON.parse(r.stdout);
+	} catch {
+		/* no JSON: the registry was not reached */
+	}
+	if (!report?.metadata?.vulnerabilities) {
+		const why = (report?.message ?? report?.error?.summary ?? r.stderr ?? r.error?.message ?? '').toString().split('\n')[0];
+		log(`npm audit could not reach the registry, so the dependencies were NOT audited (${why || 'no answer'})`);
+		return 0;
+	}
+	const v = report.metadata.vulnerabilities;
+	log(`npm audit (production dependencies): ${v.critical} critical, ${v.high} high, ${v.moderate} moderate, ${v.low} low`);
+	return v.critical + v.high > 0 ? 1 : 0;
+}
 
 const t0 = Date.now();
 ensureNodeModules();
@@ -10,6 +33,7 @@ const env = { ...stack.env, NODE_ENV: 'test', REGOLOG_TEST: '1' };
 process.on('SIGINT', () => { stack.stop(); process.exit(130); });
 
 const steps = [
+	['npm audit', audit],
 	['migrate and seed', process.execPath, ['--import', 'tsx', 'scripts/setup-db.ts', '--bucket']],
 	['svelte-kit sync', 'npx', ['svelte-kit', 'sync']],
 	['svelte-check', 'npx', ['svelte-check', '--tsconfig', './tsconfig.json', '--fail-on-warnings', '--threshold', 'error']],
@@ -21,11 +45,11 @@ let failed = null;
 for (const [name, cmd, args] of steps) {
 	const s = Date.now();
 	log(`── ${name}`);
-	if (run(cmd, args, env) !== 0) {
+	if ((typeof cmd === 'function' ? cmd() : run(cmd, args, env)) !== 0) {
 		failed = name;
 		break;
 	}
-	log(`   ${name} passed in ${((Date.now() - s) / 1000).toFixed(1)} s`);
+	log(`   ${name} done in ${((Date.now() - s) / 1000).toFixed(1)} s`);
 }
 stack.stop();
 const secs = ((Date.now() - t0) / 1000).toFixed(1);

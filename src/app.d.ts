@@ -8,6 +8,8 @@ declare global {
 		interface Locals {
 			user: import('$lib/server/auth/types').SessionUser | null;
 			session: import('$lib/server/auth/types').SessionInfo | null;
+			/** Set when a step of the answer failed because the database was not reachable. */
+			dbUnavailable?: boolean;
 		}
 	}
 }

@@ -10,6 +10,7 @@ import { userIdForBearer } from '$lib/server/auth/tokens';
 import { errorResponse, isDbUnavailable } from '$lib/server/api';
 import { ROLE_LABELS, type SessionUser } from '$lib/server/auth/types';
 import { User, Lab, models } from '$lib/server/models';
+import { countQueries, queryCount } from '$lib/server/db';
 
 const STATUS_CODES: Record<number, string> = {
 	400: 'bad_request', 401: 'unauthenticated', 403: 'forbidden', 404: 'not_found', 405: 'method_not_allowed',
@@ -63,6 +64,14 @@ const securityHeaders: Record<string, string> = {
 	'x-frame-options': 'DENY',
 	'permissions-policy': 'camera=(self), microphone=(), geolocation=()'
 };
+/** Pages get SvelteKit's nonce policy (svelte.config.js); everything else, JSON and files, may load nothing. */
+const NON_PAGE_CSP = "default-src 'none'; frame-ancestors 'none'; base-uri 'none'; form-action 'none'";
+
+function withSecurityHeaders(response: Response): Response {
+	for (const [k, v] of Object.entries(securityHeaders)) if (!response.headers.has(k)) response.headers.set(k, v);
+	if (!response.headers.has('content-security-policy')) response.headers.set('content-security-policy', NON_PAGE_CSP);
+	return response;
+}
 
 /** Gives every JSON API failure the documented shape, whoever produced it. */
 async function normaliseApiError(res: Response): Promise<Response> {
@@ -89,14 +98,24 @@ async function normaliseApiError(res: Response): Promise<Response> {
 	return out;
 }
 
-export const handle: Handle = async ({ event, resolve }) => {
+export const handle: Handle = async (input) => {
+	if (!countQueries) return guarded(input);
+	const counter = { n: 0 };
+	const response = await queryCount.run(counter, () => guarded(input));
+	response.headers.set('x-regolog-queries', String(counter.n));
+	return response;
+};
+
+const guarded: Handle = async ({ event, resolve }) => {
 	const isApi = event.url.pathname === '/api' || event.url.pathname.startsWith('/api/');
 	let status: Awaited<ReturnType<typeof authenticate>>;
 	try {
 		status = await authenticate(event);
 	} catch (e) {
 		if (!isDbUnavailable(e)) throw e;
-		return errorResponse(503, 'unavailable', 'The database is not reachable at the moment; try again shortly.');
+		const down = errorResponse(503, 'unavailable', 'The database is not reachable at the moment; try again shortly.');
+		down.headers.set('retry-after', '5');
+		return withSecurityHeaders(down);
 	}
 
 	let response: Response;
@@ -119,19 +138,29 @@ export const handle: Handle = async ({ event, resolve }) => {
 				: error(403, { code: 'forbidden', message: `Your role (${event.locals.user!.roleLabel}) may not open this page.` });
 		} else {
 			response = await resolve(event);
+			if (response.status === 500 && event.locals.dbUnavailable) {
+				// A page or endpoint that failed only because the database went away: 503, try again.
+				response = new Response(response.body, { status: 503, headers: response.headers });
+				response.headers.set('retry-after', '5');
+			}
 			if (isApi) response = await normaliseApiError(response);
 		}
 	}
-	for (const [k, v] of Object.entries(securityHeaders)) if (!response.headers.has(k)) response.headers.set(k, v);
+	withSecurityHeaders(response);
 	if (event.locals.user) response.headers.set('cache-control', 'private, no-store');
 	return response;
 };
 
 export const handleError: HandleServerError = ({ error, event, status }) => {
 	if (status === 404) return { message: 'Not found', code: 'not_found' };
+	// A refusal raised by the framework itself (an oversized body: 413) is the client's, not ours.
+	if (status >= 400 && status < 500) return { message: (error as Error)?.message?.slice(0, 300) || `HTTP ${status}`, code: STATUS_CODES[status] ?? 'bad_request' };
 	const ref = randomUUID().slice(0, 8);
 	console.error(`[regolog] error ${ref} on ${event.request.method} ${event.url.pathname}:`, error);
-	if (isDbUnavailable(error)) return { message: 'The database is not reachable at the moment; try again shortly.', code: 'unavailable' };
+	if (isDbUnavailable(error)) {
+		event.locals.dbUnavailable = true;
+		return { message: 'The database is not reachable at the moment; try again shortly.', code: 'unavailable' };
+	}
 	return { message: `Something went wrong on our side (reference ${ref}); nothing was changed by the failed step.`, code: 'internal' };
 };
 

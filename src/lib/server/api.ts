@@ -75,8 +75,15 @@ export function readQuery<T>(url: URL, schema: ZodType<T>): T {
 
 /** Recognises the errors of an unreachable database, which the API answers with 503. */
 export function isDbUnavailable(e: unknown): boolean {
-	const name = (e as { name?: string })?.name ?? '';
-	return /^Sequelize(Connection|ConnectionRefused|ConnectionAcquireTimeout|HostNotReachable|ConnectionTimedOut)Error$/.test(name);
+	const err = e as { name?: string; message?: string; parent?: { code?: string; message?: string }; original?: { code?: string } };
+	const name = err?.name ?? '';
+	if (/^Sequelize(Connection|ConnectionRefused|ConnectionAcquireTimeout|HostNotReachable|ConnectionTimedOut)Error$/.test(name)) return true;
+	// A query cut off by a database restart: the server ended the session (57P01–57P03, class 08),
+	// or the socket closed under the driver.
+	const code = err?.parent?.code ?? err?.original?.code ?? (err as { code?: string })?.code ?? '';
+	if (/^(57P0[1-3]|08\d\d\d|ECONNRESET|ECONNREFUSED|EPIPE)$/.test(code)) return true;
+	const message = err?.parent?.message ?? err?.message ?? '';
+	return /Connection terminated|connection is closed|Client has encountered a connection error|the database system is (starting up|shutting down)/i.test(message);
 }
 
 type Handler<E extends RequestEvent> = (event: E) => Response | Promise<Response>;

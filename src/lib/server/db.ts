@@ -1,6 +1,15 @@
 import { Sequelize } from 'sequelize';
 import pg from 'pg';
+import { AsyncLocalStorage } from 'node:async_hooks';
 import { config } from './config';
+
+/**
+ * With REGOLOG_COUNT_QUERIES=1 every answer carries `x-regolog-queries`, the number of SQL
+ * statements sent through Sequelize while it was made: the page benchmark uses it to show that no
+ * page load sends more queries as the registry grows.
+ */
+export const countQueries = process.env.REGOLOG_COUNT_QUERIES === '1';
+export const queryCount = new AsyncLocalStorage<{ n: number }>();
 
 // BIGINT (int8) columns hold micrograms. Parse them to JS numbers, refusing anything a
 // double cannot hold exactly, so a mass is never silently rounded.
@@ -20,7 +29,12 @@ export function db(): Sequelize {
 			port: config.db.port,
 			dialect: 'postgres',
 			dialectModule: pg,
-			logging: false,
+			logging: countQueries
+				? () => {
+						const c = queryCount.getStore();
+						if (c) c.n++;
+					}
+				: false,
 			pool: { max: config.db.poolMax, min: 0, idle: 10_000, acquire: 20_000 },
 			define: { underscored: true, timestamps: true }
 		});
