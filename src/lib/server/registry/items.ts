@@ -120,7 +120,8 @@ export async function getItem(sq: Sequelize, who: Who, codeText: string) {
 }
 
 const SORTS = {
-	code: { cols: ['c.prefix', 'i.serial'], keys: ['prefix', 'serial'] },
+	// the prefix is read from the code itself, so an index on items alone serves the order (migration 0050)
+	code: { cols: ["split_part(i.code, '-', 1)", 'i.serial'], keys: ['prefix', 'serial'] },
 	mass: { cols: ['i.mass_ug', 'i.code'], keys: ['mass_ug', 'code'] },
 	registered: { cols: ['i.created_at', 'i.code'], keys: ['created_key', 'code'] }
 } as const;
