@@ -47,7 +47,9 @@ interface Due {
 
 /**
  * Sends due messages. Each is claimed with FOR UPDATE SKIP LOCKED, so several senders never
- * send one message twice; a failure schedules the next attempt with backoff. `onlyIds` sends
+ * send one message twice; a failure schedules the next attempt with backoff. Messages never tried
+ * go first, so while the relay is down a new message still gets its first attempt (and its error on
+ * record) at once instead of waiting behind older retries. `onlyIds` sends
  * just those queued messages, due or not (an operator's "send now").
  */
 export async function deliverDue(opts: { transport?: Transporter; limit?: number; onlyIds?: number[] } = {}): Promise<{ sent: number; failed: number }> {
@@ -60,7 +62,7 @@ export async function deliverDue(opts: { transport?: Transporter; limit?: number
 			const rows = await sequelize.query<Due>(
 				`SELECT id, to_address, subject, body_text, body_html, attempts FROM mail_outbox
 				 WHERE status = 'queued' AND ${opts.onlyIds ? 'id IN (:ids)' : 'next_attempt_at <= now()'}
-				 ORDER BY next_attempt_at, id LIMIT 1 FOR UPDATE SKIP LOCKED`,
+				 ORDER BY attempts, next_attempt_at, id LIMIT 1 FOR UPDATE SKIP LOCKED`,
 				{ type: QueryTypes.SELECT, transaction: t, replacements: { ids: opts.onlyIds ?? [] } }
 			);
 			if (!rows.length) return null;
