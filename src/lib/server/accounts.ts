@@ -1,7 +1,7 @@
 import { z } from 'zod';
 import { Op, QueryTypes } from 'sequelize';
 import { models, User, Lab, EmailToken, ApiToken } from './models';
-import { appendTrail, type TrailActor } from './trail';
+import { appendTrail, actorOf } from './trail';
 import { enqueueMail } from './outbox';
 import { inviteMail, resetMail } from './mail-templates';
 import { hashPassword, passwordProblem, verifyPassword } from './auth/password';
@@ -14,9 +14,7 @@ import { plainText, emailField, uuidField } from './validation';
 export const INVITE_HOURS = 24;
 export const RESET_HOURS = 1;
 
-export function actorOf(u: SessionUser): TrailActor {
-	return { id: u.id, label: u.email };
-}
+export { actorOf };
 
 export const roleField = z.enum(ROLES, { error: `Role must be one of: ${ROLES.join(', ')}.` });
 

@@ -35,6 +35,11 @@ export interface TrailRow {
 
 export const SYSTEM_ACTOR: TrailActor = { id: null, label: 'system' };
 
+/** A signed-in person as the trail names them. */
+export function actorOf(u: { id: string; email: string }): TrailActor {
+	return { id: u.id, label: u.email };
+}
+
 /** RFC 8785 canonical JSON of an event's content (everything but the hashes). */
 export function canonicalEvent(e: Omit<TrailRow, 'prev_hash' | 'hash'>): string {
 	const text = canonicalize({

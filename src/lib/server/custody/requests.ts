@@ -2,14 +2,13 @@ import { z } from 'zod';
 import { QueryTypes, type Sequelize, type Transaction } from 'sequelize';
 import { ApiProblem } from '../api';
 import { allocatableUg } from '../../domain/budget';
-import { appendTrail } from '../trail';
+import { appendTrail, actorOf } from '../trail';
 import type { SessionUser } from '../auth/types';
 import { labFilter, canSeeLab } from '../auth/scope';
 import { findItem, micrograms } from '../registry/common';
 import { formatMg } from '../../domain/mass';
 import { conflict, forbid, idOf, note, notify, recipients, requestNumber, REQUEST_STATE_LABELS, type RequestState } from './common';
 
-const actor = (u: SessionUser) => ({ id: u.id, label: u.email });
 
 export const requestInput = z.strictObject({
 	collection: z.string({ error: 'must be a collection prefix such as TRN' }).trim().toUpperCase().regex(/^[A-Z]{2,5}$/, 'must be a collection prefix such as TRN'),
@@ -153,7 +152,7 @@ export async function createRequest(sq: Sequelize, user: SessionUser, input: Req
 				}
 			}
 		);
-		await appendTrail(sq, t, { actor: actor(user), action: input.submit ? 'request.submitted' : 'request.drafted', subjectType: 'allocation_request', subjectId: row.id, after: { ...input, state } });
+		await appendTrail(sq, t, { actor: actorOf(user), action: input.submit ? 'request.submitted' : 'request.drafted', subjectType: 'allocation_request', subjectId: row.id, after: { ...input, state } });
 		if (input.submit) await notifySubmitted(sq, t, row, user.labName ?? '', input.collection, input.massUg);
 		return row.id;
 	});
@@ -180,7 +179,7 @@ export async function updateDraft(sq: Sequelize, user: SessionUser, id: string, 
 				}
 			}
 		);
-		await appendTrail(sq, t, { actor: actor(user), action: input.submit ? 'request.submitted' : 'request.draft_saved', subjectType: 'allocation_request', subjectId: r.id, before: requestView(r), after: input });
+		await appendTrail(sq, t, { actor: actorOf(user), action: input.submit ? 'request.submitted' : 'request.draft_saved', subjectType: 'allocation_request', subjectId: r.id, before: requestView(r), after: input });
 		if (input.submit) await notifySubmitted(sq, t, r, r.lab_name, input.collection, input.massUg);
 		return r.id;
 	});
@@ -191,7 +190,7 @@ async function setState(sq: Sequelize, t: Transaction, user: SessionUser, r: Req
 	await sq.query(`UPDATE allocation_requests SET state = :state, updated_at = now()${sets.length ? ', ' + sets.join(', ') : ''} WHERE id = :id`, {
 		replacements: { id: r.id, state, ...extra }, transaction: t
 	});
-	await appendTrail(sq, t, { actor: actor(user), action, subjectType: 'allocation_request', subjectId: r.id, before: { state: r.state }, after: { state, ...extra } });
+	await appendTrail(sq, t, { actor: actorOf(user), action, subjectType: 'allocation_request', subjectId: r.id, before: { state: r.state }, after: { state, ...extra } });
 }
 
 export async function submitRequest(sq: Sequelize, user: SessionUser, id: string) {
@@ -227,7 +226,7 @@ async function releaseEarmarks(sq: Sequelize, t: Transaction, user: SessionUser,
 		{ type: QueryTypes.SELECT, replacements: { id: requestId }, transaction: t }
 	);
 	for (const it of items) {
-		await appendTrail(sq, t, { actor: actor(user), action: 'item.earmark_released', subjectType: 'item', subjectId: it.code, before: { state: 'earmarked' }, after: { state: 'stored', requestId } });
+		await appendTrail(sq, t, { actor: actorOf(user), action: 'item.earmark_released', subjectType: 'item', subjectId: it.code, before: { state: 'earmarked' }, after: { state: 'stored', requestId } });
 	}
 }
 
@@ -325,7 +324,7 @@ export async function earmarkItem(sq: Sequelize, user: SessionUser, id: string, 
 		await sq.query('INSERT INTO allocation_items (request_id, item_id, mass_ug, added_by) VALUES (:r, :i, :m, :u)', {
 			replacements: { r: r.id, i: item.id, m: item.mass_ug, u: user.id }, transaction: t
 		});
-		await appendTrail(sq, t, { actor: actor(user), action: 'item.earmarked', subjectType: 'item', subjectId: item.code, before: { state: 'stored' }, after: { state: 'earmarked', requestId: r.id, request: requestNumber(r.number) } });
+		await appendTrail(sq, t, { actor: actorOf(user), action: 'item.earmarked', subjectType: 'item', subjectId: item.code, before: { state: 'stored' }, after: { state: 'earmarked', requestId: r.id, request: requestNumber(r.number) } });
 		return { code: item.code, massUg: item.mass_ug };
 	});
 }

@@ -3,7 +3,7 @@ import { createHash } from 'node:crypto';
 import canonicalize from 'canonicalize';
 import { QueryTypes, type Sequelize, type Transaction } from 'sequelize';
 import { ApiProblem } from '../api';
-import { appendTrail } from '../trail';
+import { appendTrail, actorOf } from '../trail';
 import { verifyPassword } from '../auth/password';
 import { ROLE_LABELS, type SessionUser } from '../auth/types';
 import { canSeeLab, labFilter } from '../auth/scope';
@@ -12,7 +12,6 @@ import { formatMg } from '../../domain/mass';
 import { conflict, forbid, idOf, MEANING_LABELS, note, notify, recipients, requestNumber, transferNumber, type Meaning } from './common';
 import { closeIfSettled } from './usage';
 
-const actor = (u: SessionUser) => ({ id: u.id, label: u.email });
 export const USAGE_REPORT_DAYS = 90;
 
 export const COOLANTS = {
@@ -210,7 +209,7 @@ export async function prepareTransfer(sq: Sequelize, user: SessionUser, input: z
 			await sq.query('INSERT INTO transfer_items (transfer_id, item_id, mass_ug) VALUES (:x, :i, :m)', { replacements: { x: x.id, i: it.id, m: it.mass_ug }, transaction: t });
 		}
 		await appendTrail(sq, t, {
-			actor: actor(user), action: 'transfer.prepared', subjectType: 'transfer', subjectId: x.id,
+			actor: actorOf(user), action: 'transfer.prepared', subjectType: 'transfer', subjectId: x.id,
 			after: { number: transferNumber(x.number), direction, items: items.map((i) => ({ code: i.code, massUg: i.mass_ug })), ...input }
 		});
 		return x.id;
@@ -266,7 +265,7 @@ export async function signTransfer(sq: Sequelize, user: SessionUser, id: string,
 			await sq.query('UPDATE items SET state = :state, holder_lab_id = :holder, updated_at = now() WHERE id IN (:ids)', { replacements: { state, holder, ids }, transaction: t });
 			for (const it of items) {
 				await appendTrail(sq, t, {
-					actor: actor(user), action: 'item.custody_changed', subjectType: 'item', subjectId: it.code,
+					actor: actorOf(user), action: 'item.custody_changed', subjectType: 'item', subjectId: it.code,
 					before: { state: it.state, holderLabId: it.holder_lab_id }, after: { state, holderLabId: holder, transfer: transferNumber(x.number), signature: sig.id }
 				});
 			}
@@ -300,7 +299,7 @@ export async function signTransfer(sq: Sequelize, user: SessionUser, id: string,
 		}
 		if (newState !== x.state) await sq.query('UPDATE transfers SET state = :s, updated_at = now() WHERE id = :id', { replacements: { s: newState, id: x.id }, transaction: t });
 		await appendTrail(sq, t, {
-			actor: actor(user), action: `transfer.signed.${input.meaning}`, subjectType: 'transfer', subjectId: x.id,
+			actor: actorOf(user), action: `transfer.signed.${input.meaning}`, subjectType: 'transfer', subjectId: x.id,
 			before: { state: x.state }, after: { state: newState, signature: { id: sig.id, printedName: user.name, role: user.role, meaning: input.meaning, manifestSha256: manifestHash, note: input.note } }
 		});
 		// Tell the other side.
@@ -327,7 +326,7 @@ export async function cancelTransfer(sq: Sequelize, user: SessionUser, id: strin
 		if (!mine) forbid(`${transferNumber(x.number)} is cancelled by the side that prepared it.`);
 		if (x.state !== 'prepared') conflict(`${transferNumber(x.number)} is ${x.state}; only a transfer not yet dispatched can be cancelled.`);
 		await sq.query(`UPDATE transfers SET state = 'cancelled', updated_at = now() WHERE id = :id`, { replacements: { id: x.id }, transaction: t });
-		await appendTrail(sq, t, { actor: actor(user), action: 'transfer.cancelled', subjectType: 'transfer', subjectId: x.id, before: { state: 'prepared' }, after: { state: 'cancelled' } });
+		await appendTrail(sq, t, { actor: actorOf(user), action: 'transfer.cancelled', subjectType: 'transfer', subjectId: x.id, before: { state: 'prepared' }, after: { state: 'cancelled' } });
 	});
 }
 

@@ -1,14 +1,13 @@
 import { z } from 'zod';
 import { QueryTypes, type Sequelize, type Transaction } from 'sequelize';
 import { ApiProblem } from '../api';
-import { appendTrail } from '../trail';
+import { appendTrail, actorOf } from '../trail';
 import type { SessionUser } from '../auth/types';
 import { canSeeLab } from '../auth/scope';
 import { codeOrProblem, micrograms } from '../registry/common';
 import { formatMg } from '../../domain/mass';
 import { conflict, forbid, idOf, note, notify, recipients, requestNumber } from './common';
 
-const actor = (u: SessionUser) => ({ id: u.id, label: u.email });
 
 export const usageInput = z.strictObject({
 	itemCode: z.string({ error: 'must be an item code' }),
@@ -76,7 +75,7 @@ export async function submitUsage(sq: Sequelize, user: SessionUser, requestId: s
 		const state = input.returnedUg === 0 ? 'consumed' : 'on_loan';
 		await sq.query('UPDATE items SET mass_ug = :m, state = :s, updated_at = now() WHERE id = :id', { replacements: { m: input.returnedUg, s: state, id: it.id }, transaction: t });
 		await appendTrail(sq, t, {
-			actor: actor(user), action: 'usage.reported', subjectType: 'item', subjectId: it.code,
+			actor: actorOf(user), action: 'usage.reported', subjectType: 'item', subjectId: it.code,
 			before: { massUg: allocated, state: it.state }, after: { massUg: input.returnedUg, state, consumedUg: input.consumedUg, lostUg: input.lostUg, gapUg: gap, toleranceUg: tolerance, flagged, request: requestNumber(r.number) }
 		});
 		if (flagged) {
