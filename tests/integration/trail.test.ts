@@ -3,6 +3,7 @@ import { createHash } from 'node:crypto';
 import canonicalize from 'canonicalize';
 import pg from 'pg';
 import { Sequelize } from 'sequelize';
+import { to as copyTo } from 'pg-copy-streams';
 import { migrateUp } from '../../src/lib/server/migrator';
 import fc from 'fast-check';
 import {
@@ -12,6 +13,7 @@ import {
 	canonicalRawRow,
 	chainHash,
 	verifyTrail,
+	BinaryCopyReader,
 	GENESIS_HASH,
 	SYSTEM_ACTOR,
 	type TrailInput
@@ -199,10 +201,85 @@ describe('the trail in the database', () => {
 		expect(first.prev_hash).toBe(GENESIS_HASH);
 	});
 
-	it('verifies the same whatever the batch size', async () => {
-		for (const batch of [1, 2, 7, 24, 25, 26, 10_000]) {
-			expect(await verifyTrail(scratch.sequelize, batch)).toEqual({ ok: true, events: 25, firstBrokenAt: null });
+	it('stores as body and hash exactly what node computes: canonicalEvent and SHA-256 over prev + body', async () => {
+		const s8 = await scratchDatabase('trail_sqlhash');
+		try {
+			await migrateUp(s8.sequelize);
+			// JSON that jsonb can store (no NUL, no lone surrogate), any text for subject ids
+			const storable = (v: unknown) => !/\\u0000|\\ud[89a-f]/i.test(JSON.stringify(v));
+			const value = fc.jsonValue({ maxDepth: 3 }).filter(storable);
+			const text = fc.string({ unit: 'binary', maxLength: 30 }).filter(storable);
+			let n = 0;
+			await fc.assert(
+				fc.asyncProperty(text, text, fc.option(value, { nil: undefined }), value, async (subjectId, label, before, after) => {
+					const input: TrailInput = { actor: { id: null, label }, action: 'item.weighed', subjectType: 'item', subjectId, before, after };
+					const got = await s8.sequelize.transaction((t) => appendTrail(s8.sequelize, t, input));
+					n++;
+					const [[row]] = (await s8.sequelize.query('SELECT * FROM trail_events WHERE seq = :seq', { replacements: { seq: got.seq } })) as [any[], unknown];
+					expect(row.body).toBe(canonicalEvent(row));
+					expect(row.hash).toBe(chainHash(row.prev_hash, row.body));
+					expect(row.body_matches).toBe(true);
+					expect(got).toEqual({ seq: n, prevHash: row.prev_hash, hash: row.hash });
+				}),
+				{ numRuns: 60 }
+			);
+			expect(await verifyTrail(s8.sequelize)).toEqual({ ok: true, events: n, firstBrokenAt: null });
+		} finally {
+			await s8.drop();
 		}
+	});
+
+	it('verifies the same however many ranges are read at once', async () => {
+		for (const ranges of [1, 2, 3, 7, 24, 25, 26, 10_000]) {
+			expect(await verifyTrail(scratch.sequelize, { ranges })).toEqual({ ok: true, events: 25, firstBrokenAt: null });
+		}
+	});
+
+	it('reads the binary COPY stream the same whatever its chunk boundaries', async () => {
+		const client = new pg.Client({
+			host: process.env.REGOLOG_DB_HOST ?? '127.0.0.1', port: Number(process.env.REGOLOG_DB_PORT ?? 54320),
+			user: process.env.REGOLOG_DB_USER ?? 'regolog', password: process.env.REGOLOG_DB_PASSWORD ?? 'regolog-local', database: scratch.name
+		});
+		await client.connect();
+		const chunks: Buffer[] = [];
+		try {
+			const stream = client.query(copyTo(`COPY (SELECT seq, hash, NULL::text, body FROM trail_events ORDER BY seq) TO STDOUT (FORMAT binary)`));
+			for await (const c of stream) chunks.push(c as Buffer);
+		} finally {
+			await client.end();
+		}
+		const whole = Buffer.concat(chunks);
+		const expected = ((await scratch.sequelize.query('SELECT seq::text AS seq, hash, body FROM trail_events ORDER BY trail_events.seq'))[0] as { seq: string; hash: string; body: string }[]).map(
+			(r) => [Number(r.seq), r.hash, null, r.body]
+		);
+		const read = (pieces: Buffer[]) => {
+			const got: unknown[][] = [];
+			const reader = new BinaryCopyReader(4, (buf, r) => {
+				const f = (i: number) => (r.start[i] < 0 ? null : buf.toString('utf8', r.start[i], r.end[i]));
+				got.push([Number(buf.readBigInt64BE(r.start[0])), f(1), f(2), f(3)]);
+				return true;
+			});
+			for (const p of pieces) reader.push(p);
+			return { got, ended: reader.ended };
+		};
+		expect(read([whole])).toEqual({ got: expected, ended: true });
+		// cut into pieces of every size from 1 byte up, and at random places
+		for (const size of [1, 2, 3, 5, 19, 64, 333, 4096]) {
+			const pieces = [];
+			for (let i = 0; i < whole.length; i += size) pieces.push(whole.subarray(i, i + size));
+			expect(read(pieces)).toEqual({ got: expected, ended: true });
+		}
+		fc.assert(
+			fc.property(fc.uniqueArray(fc.integer({ min: 1, max: whole.length - 1 }), { maxLength: 40 }), (cuts) => {
+				const at = [0, ...cuts.sort((a, b) => a - b), whole.length];
+				const pieces = at.slice(1).map((end, i) => whole.subarray(at[i], end));
+				expect(read(pieces)).toEqual({ got: expected, ended: true });
+			}),
+			{ numRuns: 60 }
+		);
+		// a stream cut short has not ended, and what it holds is not a tuple
+		expect(read([whole.subarray(0, whole.length - 3)]).ended).toBe(false);
+		expect(() => read([Buffer.from('not a copy stream at all')])).toThrow(/not PostgreSQL binary COPY data/);
 	});
 
 	it('refuses UPDATE, DELETE and TRUNCATE through the app’s own connection', async () => {
@@ -221,7 +298,9 @@ describe('the trail in the database', () => {
 		expect(r).toMatchObject({ ok: false, events: 8, firstBrokenAt: 9, reason: 'content does not match its hash' });
 		// later changes do not hide the first one
 		await tamper(`UPDATE trail_events SET actor_label = 'intruder' WHERE seq = 17`);
-		expect(await verifyTrail(scratch.sequelize, 4)).toMatchObject({ ok: false, firstBrokenAt: 9 });
+		expect(await verifyTrail(scratch.sequelize, { ranges: 4 })).toMatchObject({ ok: false, firstBrokenAt: 9 });
+		// a break in the second of three ranges is still the first one found
+		expect(await verifyTrail(scratch.sequelize, { ranges: 3 })).toMatchObject({ ok: false, events: 8, firstBrokenAt: 9 });
 	});
 
 	it('finds a rewritten event whose own hash was recomputed, at the next link', async () => {
@@ -239,6 +318,10 @@ describe('the trail in the database', () => {
 			});
 			// event 4 is consistent with itself; the chain breaks where event 5 still points to the old hash
 			expect(await verifyTrail(s2.sequelize)).toMatchObject({ ok: false, events: 4, firstBrokenAt: 5, reason: 'link to the previous event does not match' });
+			// the same where the break falls between two ranges read at once (1 | 2–3 | 4 | 5–6)
+			for (const ranges of [2, 4, 6]) {
+				expect(await verifyTrail(s2.sequelize, { ranges })).toMatchObject({ ok: false, events: 4, firstBrokenAt: 5, reason: 'link to the previous event does not match' });
+			}
 		} finally {
 			await s2.drop();
 		}
@@ -259,7 +342,7 @@ describe('the trail in the database', () => {
 			await edit(`UPDATE trail_events SET subject_id = 'TRN-9999' WHERE seq = 6`);
 			expect(await verifyTrail(s5.sequelize)).toMatchObject({ ok: false, events: 5, firstBrokenAt: 6, reason: 'content does not match its hash' });
 			await edit(`UPDATE trail_events SET body = replace(body, '"massUg":1001', '"massUg":1') WHERE seq = 2`);
-			expect(await verifyTrail(s5.sequelize, 3)).toMatchObject({ ok: false, events: 1, firstBrokenAt: 2 });
+			expect(await verifyTrail(s5.sequelize, { ranges: 3 })).toMatchObject({ ok: false, events: 1, firstBrokenAt: 2 });
 			// with the generated column's definition gone, the same comparison is made row by row
 			await asSuperuser(s5.name, (c) => c.query('ALTER TABLE trail_events ALTER COLUMN body_matches DROP EXPRESSION'));
 			expect(await verifyTrail(s5.sequelize)).toMatchObject({ ok: false, firstBrokenAt: 2 });
@@ -283,6 +366,7 @@ describe('the trail in the database', () => {
 			);
 			await append(events(2, 'after'), s6.sequelize);
 			expect(await verifyTrail(s6.sequelize)).toEqual({ ok: true, events: 6, firstBrokenAt: null });
+			expect(await verifyTrail(s6.sequelize, { ranges: 3 })).toEqual({ ok: true, events: 6, firstBrokenAt: null });
 			await asSuperuser(s6.name, async (c) => {
 				await c.query('SET session_replication_role = replica');
 				await c.query(`UPDATE trail_events SET after = '{"massUg": 6}' WHERE seq = 4`);
@@ -290,6 +374,29 @@ describe('the trail in the database', () => {
 			expect(await verifyTrail(s6.sequelize)).toMatchObject({ ok: false, events: 3, firstBrokenAt: 4, reason: 'content does not match its hash' });
 		} finally {
 			await s6.drop();
+		}
+	});
+
+	it('verifies a chain whose rows are not stored in seq order', async () => {
+		const s7 = await scratchDatabase('trail_order');
+		try {
+			await migrateUp(s7.sequelize);
+			await append(events(6), s7.sequelize);
+			// an UPDATE that changes nothing still writes a new row version at the end of the table
+			await asSuperuser(s7.name, async (c) => {
+				await c.query('SET session_replication_role = replica');
+				await c.query('UPDATE trail_events SET seq = seq WHERE seq IN (2, 4)');
+			});
+			const [physical] = (await s7.sequelize.query('SELECT seq::int AS seq FROM trail_events')) as [{ seq: number }[], unknown];
+			expect(physical.map((r) => r.seq)).toEqual([1, 3, 5, 6, 2, 4]);
+			expect(await verifyTrail(s7.sequelize)).toEqual({ ok: true, events: 6, firstBrokenAt: null });
+			await asSuperuser(s7.name, async (c) => {
+				await c.query('SET session_replication_role = replica');
+				await c.query('DELETE FROM trail_events WHERE seq = 5');
+			});
+			expect(await verifyTrail(s7.sequelize)).toMatchObject({ ok: false, events: 4, firstBrokenAt: 5, reason: 'event 5 is missing' });
+		} finally {
+			await s7.drop();
 		}
 	});
 
@@ -303,6 +410,9 @@ describe('the trail in the database', () => {
 				await c.query('DELETE FROM trail_events WHERE seq = 3');
 			});
 			expect(await verifyTrail(s3.sequelize)).toMatchObject({ ok: false, events: 2, firstBrokenAt: 3, reason: 'event 3 is missing' });
+			for (const ranges of [2, 3, 5]) {
+				expect(await verifyTrail(s3.sequelize, { ranges })).toMatchObject({ ok: false, events: 2, firstBrokenAt: 3, reason: 'event 3 is missing' });
+			}
 		} finally {
 			await s3.drop();
 		}

@@ -1,9 +1,24 @@
 import type { Adapter, DatabaseSession, DatabaseUser } from 'lucia';
-import { Op } from 'sequelize';
+import { Op, QueryTypes } from 'sequelize';
+import { db } from '../db';
+import type { Role } from './types';
 import { models, Session, User } from '../models';
 
 function toSession(s: Session): DatabaseSession {
 	return { id: s.id, userId: s.userId, expiresAt: new Date(s.expiresAt), attributes: {} };
+}
+
+interface SessionUserRow {
+	id: string;
+	user_id: string;
+	expires_at: Date;
+	uid: string | null;
+	email: string;
+	name: string;
+	role: Role;
+	lab_id: string | null;
+	lab_name: string | null;
+	active: boolean;
 }
 
 /** lucia v3 adapter over Sequelize: sessions live in the "sessions" table of PostgreSQL. */
@@ -12,23 +27,22 @@ export class SequelizeAdapter implements Adapter {
 		models();
 	}
 
+	/** One round trip per request: the session, its user and the user's lab in one query. */
 	async getSessionAndUser(sessionId: string): Promise<[DatabaseSession | null, DatabaseUser | null]> {
-		const s = await Session.findByPk(sessionId);
-		if (!s) return [null, null];
-		const u = await User.findByPk(s.userId, { include: ['lab'] });
-		if (!u) return [toSession(s), null];
+		const [row] = await db().query<SessionUserRow>(
+			`SELECT s.id, s.user_id, s.expires_at, u.id AS uid, u.email, u.name, u.role, u.lab_id, l.name AS lab_name, u.active
+			 FROM sessions s LEFT JOIN users u ON u.id = s.user_id LEFT JOIN labs l ON l.id = u.lab_id
+			 WHERE s.id = :id`,
+			{ type: QueryTypes.SELECT, replacements: { id: sessionId } }
+		);
+		if (!row) return [null, null];
+		const session: DatabaseSession = { id: row.id, userId: row.user_id, expiresAt: new Date(row.expires_at), attributes: {} };
+		if (row.uid === null) return [session, null];
 		return [
-			toSession(s),
+			session,
 			{
-				id: u.id,
-				attributes: {
-					email: u.email,
-					name: u.name,
-					role: u.role,
-					labId: u.labId,
-					labName: u.lab?.name ?? null,
-					active: u.active
-				}
+				id: row.uid,
+				attributes: { email: row.email, name: row.name, role: row.role, labId: row.lab_id, labName: row.lab_name, active: row.active }
 			}
 		];
 	}

@@ -5,10 +5,10 @@ import { splitBudget, type LossTolerance, type SplitBudget } from '../../domain/
 import { formatCode } from '../../domain/codes';
 import { formatMg } from '../../domain/mass';
 import { ApiProblem } from '../api';
-import { appendTrail } from '../trail';
+import { trailRowOf, trailStatement } from '../trail';
 import { checkSplitSession } from '../handling/sessions';
 import { balanceForWeighing, type BalanceView } from './balances';
-import { findItem, micrograms, shortText, takeSerials, trailActor, type ItemRow, type Who } from './common';
+import { findItem, micrograms, shortText, trailActor, type ItemRow, type Who } from './common';
 
 export const MAX_CHILDREN = 200;
 
@@ -45,13 +45,17 @@ export function toleranceOf(c: Pick<CollectionRules, 'loss_tolerance_ug' | 'loss
 	return c.loss_tolerance_ug !== null ? { ug: Number(c.loss_tolerance_ug) } : { fraction: Number(c.loss_tolerance_fraction) };
 }
 
-/** The parent's collection rules and the parent's next ledger number (stable: the parent is locked). */
-async function rulesAndSeq(sq: Sequelize, t: Transaction, parent: ItemRow): Promise<CollectionRules & { next_seq: number }> {
-	const [c] = await sq.query<CollectionRules & { next_seq: number }>(
-		`SELECT id, prefix, loss_tolerance_ug, loss_tolerance_fraction,
-		        (SELECT coalesce(max(seq), 0) + 1 FROM ledger_entries WHERE item_id = :parent)::int AS next_seq
-		 FROM collections WHERE id = :id`,
-		{ type: QueryTypes.SELECT, replacements: { id: parent.collection_id, parent: parent.id }, transaction: t }
+/**
+ * The parent's collection rules, the parent's next ledger number (stable: the parent is locked) and
+ * `n` fresh serials for the children, in one statement. Taking the serials locks the collection's
+ * row until the commit, so serials stay gapless; a refused split rolls the counter back with it.
+ */
+async function rulesSeqAndSerials(sq: Sequelize, t: Transaction, parent: ItemRow, n: number): Promise<CollectionRules & { next_seq: number; first: number }> {
+	const [c] = await sq.query<CollectionRules & { next_seq: number; first: number }>(
+		`UPDATE collections SET next_serial = next_serial + :n WHERE id = :id
+		 RETURNING id, prefix, loss_tolerance_ug, loss_tolerance_fraction, (next_serial - :n)::bigint AS first,
+		           (SELECT coalesce(max(seq), 0) + 1 FROM ledger_entries WHERE item_id = :parent)::int AS next_seq`,
+		{ type: QueryTypes.SELECT, replacements: { id: parent.collection_id, parent: parent.id, n }, transaction: t }
 	);
 	return c;
 }
@@ -101,7 +105,7 @@ export async function splitItem(sq: Sequelize, who: Who, parentCode: string, inp
 			});
 		}
 		const balance: BalanceView | null = input.balanceId === undefined ? null : await balanceForWeighing(sq, t, input.balanceId);
-		const rules = await rulesAndSeq(sq, t, parent);
+		const rules = await rulesSeqAndSerials(sq, t, parent, input.children.length);
 		const u0 = parent.mass_u_ug ?? 0;
 		const uChild = balance ? balance.netUUg : 0;
 		const budget = splitBudget(
@@ -120,8 +124,8 @@ export async function splitItem(sq: Sequelize, who: Who, parentCode: string, inp
 		const uAfter = budget.reweighed ? balance!.netUUg : Math.sqrt(u0 * u0 + input.children.length * uChild * uChild);
 		const splitId = randomUUID();
 
-		// From here to the commit the collection's serial counter is locked: everything is written in one statement.
-		const first = await takeSerials(sq, t, parent.collection_id, input.children.length);
+		// the collection's serial counter is locked until the commit: everything is written in one statement
+		const first = Number(rules.first);
 		const children = input.children.map((c, i) => ({
 			id: randomUUID(),
 			code: formatCode(rules.prefix, first + i),
@@ -164,10 +168,30 @@ export async function splitItem(sq: Sequelize, who: Who, parentCode: string, inp
 		}
 		if (running !== budget.parentAfterUg) throw new Error(`ledger of ${parent.code} does not close: ${running} ≠ ${budget.parentAfterUg}`);
 
-		const [{ at }] = await sq.query<{ at: Date }>(
+		const at = new Date();
+		const result = {
+			splitId,
+			at: at.toISOString(),
+			parentCode: parent.code,
+			parentBeforeUg: parent.mass_ug,
+			parentAfterUg: budget.parentAfterUg,
+			childrenTotalUg: budget.childrenTotalUg,
+			lossUg: budget.lossUg,
+			lossUUg: budget.lossU,
+			reweighed: budget.reweighed,
+			verdict: budget.verdict,
+			reason: reason ?? null,
+			handlingSessionId: input.handlingSessionId ?? null,
+			issues: budget.issues.map((i) => i.message),
+			balance: balance ? { id: balance.id, name: balance.name } : null,
+			children: children.map((c) => ({ code: c.code, massUg: c.massUg, uUg: c.uUg, belowMinimum: c.belowMinimum }))
+		};
+		// the change and its trail event in one round trip: the split's statement, then the trail's
+		const trail = trailStatement({ actor: trailActor(who), action: 'item.split', subjectType: 'item', subjectId: parent.id, before: { code: parent.code, massUg: parent.mass_ug }, after: result });
+		const rows = await sq.query<Record<string, unknown>>(
 			`WITH s AS (
-				INSERT INTO splits (id, parent_id, balance_id, parent_before_ug, parent_after_ug, children_total_ug, loss_ug, loss_u_ug, reweighed, verdict, reason, operator_id, handling_session_id)
-				VALUES (:split, :parent, :balance, :p0, :p1, :total, :loss, :lossU, :reweighed, :verdict, :reason, :op, :session) RETURNING at
+				INSERT INTO splits (id, at, parent_id, balance_id, parent_before_ug, parent_after_ug, children_total_ug, loss_ug, loss_u_ug, reweighed, verdict, reason, operator_id, handling_session_id)
+				VALUES (:split, :at, :parent, :balance, :p0, :p1, :total, :loss, :lossU, :reweighed, :verdict, :reason, :op, :session) RETURNING id
 			), i AS (
 				INSERT INTO items (id, collection_id, serial, code, parent_id, depth, kind, description, initial_mass_ug, mass_ug, mass_u_ug,
 				                   holder_lab_id, container, storage_place, split_id, created_by)
@@ -184,11 +208,14 @@ export async function splitItem(sq: Sequelize, who: Who, parentCode: string, inp
 			), p AS (
 				UPDATE items SET mass_ug = :p1, mass_u_ug = :uAfter, updated_at = now() WHERE id = :parent
 			)
-			SELECT at FROM s`,
+			SELECT id AS split_written FROM s;
+			${trail.sql}`,
 			{
 				type: QueryTypes.SELECT,
 				transaction: t,
 				replacements: {
+					...trail.replacements,
+					at,
 					split: splitId, parent: parent.id, balance: balance?.id ?? null, p0: parent.mass_ug, p1: budget.parentAfterUg, total: budget.childrenTotalUg,
 					loss: budget.lossUg, lossU: budget.lossU, reweighed: budget.reweighed, verdict: budget.verdict, reason: reason ?? null, op: who.id, session: input.handlingSessionId ?? null,
 					collection: parent.collection_id, depth: parent.depth + 1, u: balance?.netUUg ?? 0, U: balance?.netExpandedUg ?? 0, min: balance?.minimumWeightUg ?? 0,
@@ -199,25 +226,8 @@ export async function splitItem(sq: Sequelize, who: Who, parentCode: string, inp
 				}
 			}
 		);
-
-		const result = {
-			splitId,
-			at: new Date(at).toISOString(),
-			parentCode: parent.code,
-			parentBeforeUg: parent.mass_ug,
-			parentAfterUg: budget.parentAfterUg,
-			childrenTotalUg: budget.childrenTotalUg,
-			lossUg: budget.lossUg,
-			lossUUg: budget.lossU,
-			reweighed: budget.reweighed,
-			verdict: budget.verdict,
-			reason: reason ?? null,
-			handlingSessionId: input.handlingSessionId ?? null,
-			issues: budget.issues.map((i) => i.message),
-			balance: balance ? { id: balance.id, name: balance.name } : null,
-			children: children.map((c) => ({ code: c.code, massUg: c.massUg, uUg: c.uUg, belowMinimum: c.belowMinimum }))
-		};
-		await appendTrail(sq, t, { actor: trailActor(who), action: 'item.split', subjectType: 'item', subjectId: parent.id, before: { code: parent.code, massUg: parent.mass_ug }, after: result });
+		if (!rows.some((r) => r.split_written === splitId)) throw new Error(`split ${splitId} was not written`);
+		trailRowOf(rows);
 		return result;
 	});
 }
