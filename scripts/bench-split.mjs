@@ -13,7 +13,7 @@ process.env.REGOLOG_DB_NAME ??= 'regolog_bench';
 const { startStack, run, buildIsStale, waitForPort, log } = await import('./lib/stack.mjs');
 const { pgBinDir } = await import('./lib/pg.mjs');
 
-const CLIENTS = 8;
+const CLIENTS = Number(process.env.BENCH_CLIENTS ?? 8);
 const SECONDS = Number(process.env.BENCH_SECONDS ?? 10);
 const CHILD_UG = 1_000;
 const PARENT_UG = 500_000_000;
@@ -31,7 +31,9 @@ process.on('SIGINT', () => (stop(), process.exit(130)));
 try {
 	if (run(process.execPath, ['--import', 'tsx', 'scripts/setup-db.ts'], { ...env, NODE_ENV: 'development' }) !== 0) throw new Error('migration or seed failed');
 	if (buildIsStale() && run('npx', ['vite', 'build', '--logLevel', 'warn'], env) !== 0) throw new Error('build failed');
-	app = spawn(process.execPath, ['build'], { stdio: ['ignore', 'ignore', 'inherit'], env: { ...process.env, ...env } });
+	// REGOLOG_BENCH_PROFILE=<dir>: the app writes a CPU profile there when it stops
+	const profileArgs = process.env.REGOLOG_BENCH_PROFILE ? ['--cpu-prof', `--cpu-prof-dir=${process.env.REGOLOG_BENCH_PROFILE}`] : [];
+	app = spawn(process.execPath, [...profileArgs, 'build'], { stdio: ['ignore', 'ignore', 'inherit'], env: { ...process.env, ...env } });
 	await waitForPort(Number(env.PORT), 'the app');
 	const base = `http://127.0.0.1:${env.PORT}`;
 	const db = new pg.Client({ host: '127.0.0.1', port: Number(env.REGOLOG_DB_PORT), user: env.REGOLOG_DB_USER, password: env.REGOLOG_DB_PASSWORD, database: env.REGOLOG_DB_NAME });

@@ -9,7 +9,7 @@ export async function setup() {
 	if (!existsSync('build/index.js')) throw new Error('build/ is missing: `npm test` builds before vitest runs');
 	server = spawn(process.execPath, ['build'], {
 		// A keep-alive longer than the clients' own, so a reused socket is never closed under a request.
-		env: { ...process.env, PORT: String(API_PORT), HOST: '127.0.0.1', ORIGIN: `http://127.0.0.1:${API_PORT}`, KEEP_ALIVE_TIMEOUT: '65' },
+		env: { ...process.env, PORT: String(API_PORT), HOST: '127.0.0.1', ORIGIN: `http://127.0.0.1:${API_PORT}`, KEEP_ALIVE_TIMEOUT: '65', REGOLOG_COUNT_QUERIES: '1' },
 		stdio: ['ignore', 'inherit', 'inherit']
 	});
 	const until = Date.now() + 30_000;

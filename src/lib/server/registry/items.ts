@@ -93,8 +93,8 @@ export async function registerSpecimen(sq: Sequelize, who: Who, input: RegisterR
 }
 
 /** One item with its budget: initial = children's initial masses + split losses + remaining. */
-export async function getItem(sq: Sequelize, who: Who, codeText: string) {
-	const row = await findItem(sq, who, codeText);
+export async function getItem(sq: Sequelize, who: Who, codeText: string, found?: ItemRow) {
+	const row = found ?? (await findItem(sq, who, codeText));
 	const [b] = await sq.query<{ children: number; children_ug: number; losses_ug: number; splits: number; used_ug: number }>(
 		`SELECT (SELECT count(*)::int FROM items WHERE parent_id = :id) AS children,
 		        (SELECT coalesce(sum(initial_mass_ug), 0)::bigint FROM items WHERE parent_id = :id) AS children_ug,

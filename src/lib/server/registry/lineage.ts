@@ -1,18 +1,63 @@
 import { QueryTypes, type Sequelize } from 'sequelize';
 import { labFilter } from '../auth/scope';
-import { findItem, type Who } from './common';
+import { findItem, type ItemRow, type Who } from './common';
+
+/**
+ * Lineages already computed, by item, depth and lab, with the collection's lineage_version they
+ * were computed at (migration 0051): while the version is unchanged the answer is the same, so it
+ * is served again without the recursive query. Least recently used first out, within a byte budget.
+ */
+const CACHE_BYTES = Number(process.env.REGOLOG_LINEAGE_CACHE_MB ?? 64) * 1024 * 1024;
+const cache = new Map<string, { version: number; body: string }>();
+let cachedBytes = 0;
+
+function remember(key: string, version: number, body: string): void {
+	const old = cache.get(key);
+	if (old) {
+		cache.delete(key);
+		cachedBytes -= old.body.length;
+	}
+	if (body.length > CACHE_BYTES) return;
+	cache.set(key, { version, body });
+	cachedBytes += body.length;
+	for (const [k, v] of cache) {
+		if (cachedBytes <= CACHE_BYTES) break;
+		cache.delete(k);
+		cachedBytes -= v.body.length;
+	}
+}
+
+/** For tests: how many lineages are kept, and forgets them all when asked. */
+export function lineageCacheSize(clear = false): number {
+	const n = cache.size;
+	if (clear) {
+		cache.clear();
+		cachedBytes = 0;
+	}
+	return n;
+}
 
 /**
  * Ancestors (root first) and descendants (by level) of an item through one recursive query,
  * with the answer's JSON built by PostgreSQL (a tree of 10,000 items stays one round trip and
  * one string). `depth` limits the descendant levels (a tree opened one level at a time); every
  * entry carries its number of children so the tree knows what can be opened. Lab members see
- * only the entries their lab holds; the rest are counted as withheld.
+ * only the entries their lab holds; the rest are counted as withheld. An answer computed at the
+ * collection's current lineage_version is served from memory (see `cache`); the query reads the
+ * version in its own snapshot, so what is kept is exactly what that version means.
  */
 export async function lineageJson(sq: Sequelize, who: Who, codeText: string, depth: number | null = null): Promise<string> {
 	const item = await findItem(sq, who, codeText);
 	const lab = labFilter(who);
-	const [row] = await sq.query<{ body: string }>(
+	const key = `${item.id}/${depth ?? ''}/${lab ?? ''}`;
+	const kept = cache.get(key);
+	if (kept && kept.version === Number(item.lineage_version)) {
+		// most recently used goes last
+		cache.delete(key);
+		cache.set(key, kept);
+		return kept.body;
+	}
+	const [row] = await sq.query<{ body: string; version: number }>(
 		`WITH RECURSIVE up AS (
 			SELECT id, parent_id, code, serial, kind, state, mass_ug, initial_mass_ug, holder_lab_id, 0 AS level FROM items WHERE id = :id
 			UNION ALL
@@ -46,9 +91,11 @@ export async function lineageJson(sq: Sequelize, who: Who, codeText: string, dep
 			'descendants', coalesce((SELECT json_agg(entry ORDER BY level, serial) FROM rows WHERE side = 'd' AND (:lab::uuid IS NULL OR holder_lab_id = :lab::uuid)), '[]'),
 			'withheld', (SELECT count(*) FROM rows WHERE :lab::uuid IS NOT NULL AND holder_lab_id IS DISTINCT FROM :lab::uuid),
 			'depth', :depth::int
-		)::text AS body`,
-		{ type: QueryTypes.SELECT, replacements: { id: item.id, code: item.code, depth, lab } }
+		)::text AS body,
+		(SELECT lineage_version FROM collections WHERE id = :collection) AS version`,
+		{ type: QueryTypes.SELECT, replacements: { id: item.id, code: item.code, depth, lab, collection: item.collection_id } }
 	);
+	remember(key, Number(row.version), row.body);
 	return row.body;
 }
 
@@ -68,8 +115,8 @@ interface LedgerRow {
 }
 
 /** The item's ledger in order, with the running balance summed in SQL and the recorded uncertainty. */
-export async function ledger(sq: Sequelize, who: Who, codeText: string) {
-	const item = await findItem(sq, who, codeText);
+export async function ledger(sq: Sequelize, who: Who, codeText: string, found?: ItemRow) {
+	const item = found ?? (await findItem(sq, who, codeText));
 	const rows = await sq.query<LedgerRow>(
 		`SELECT e.seq, e.at, e.kind, e.delta_ug, (sum(e.delta_ug) OVER (ORDER BY e.seq))::bigint AS running_ug, e.balance_after_ug,
 		        e.u_after_ug, e.split_id, k.code AS counterpart_code, e.note, u.name AS actor, b.name AS balance_name
