@@ -7,17 +7,20 @@ export async function up({ sequelize }) {
 	await sequelize.query(`
 		ALTER TABLE collections ADD COLUMN lineage_version bigint NOT NULL DEFAULT 0;
 
+		-- once per collection and transaction is enough: the collections bumped so far are kept in a
+		-- transaction-local setting, so a split's two children and its parent cost one UPDATE
 		CREATE FUNCTION bump_lineage_version() RETURNS trigger LANGUAGE plpgsql AS $$
+		DECLARE
+			done text := coalesce(current_setting('regolog.lineage_bumped', true), '');
 		BEGIN
-			-- rows locked in one order, so two statements over several collections cannot deadlock here
-			PERFORM 1 FROM collections WHERE id IN (SELECT collection_id FROM changed) ORDER BY id FOR UPDATE;
-			UPDATE collections SET lineage_version = lineage_version + 1 WHERE id IN (SELECT collection_id FROM changed);
+			IF strpos(done, NEW.collection_id::text) = 0 THEN
+				UPDATE collections SET lineage_version = lineage_version + 1 WHERE id = NEW.collection_id;
+				PERFORM set_config('regolog.lineage_bumped', done || NEW.collection_id::text || ' ', true);
+			END IF;
 			RETURN NULL;
 		END $$;
-		CREATE TRIGGER items_lineage_insert AFTER INSERT ON items REFERENCING NEW TABLE AS changed
-			FOR EACH STATEMENT EXECUTE FUNCTION bump_lineage_version();
-		CREATE TRIGGER items_lineage_update AFTER UPDATE ON items REFERENCING NEW TABLE AS changed
-			FOR EACH STATEMENT EXECUTE FUNCTION bump_lineage_version();
+		CREATE TRIGGER items_lineage_version AFTER INSERT OR UPDATE ON items
+			FOR EACH ROW EXECUTE FUNCTION bump_lineage_version();
 
 		CREATE FUNCTION bump_every_lineage_version() RETURNS trigger LANGUAGE plpgsql AS $$
 		BEGIN
@@ -33,8 +36,7 @@ export async function up({ sequelize }) {
 export async function down({ sequelize }) {
 	await sequelize.query(`
 		DROP TRIGGER labs_lineage_rename ON labs;
-		DROP TRIGGER items_lineage_update ON items;
-		DROP TRIGGER items_lineage_insert ON items;
+		DROP TRIGGER items_lineage_version ON items;
 		DROP FUNCTION bump_every_lineage_version(), bump_lineage_version();
 		ALTER TABLE collections DROP COLUMN lineage_version;
 	`);

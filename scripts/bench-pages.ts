@@ -7,6 +7,7 @@ import { quantileSorted } from 'simple-statistics';
 import { generateLoad } from './gen-load';
 import { startApp, stopApp } from './lib/app-process';
 import { profile } from './lib/profile.mjs';
+import { stopCluster } from './lib/pg.mjs';
 
 const SECONDS = Number(process.env.REGOLOG_BENCH_SECONDS ?? 10);
 const CONNECTIONS = 16;
@@ -47,9 +48,12 @@ const sizes = [
 ];
 const results: Record<string, { q: Record<string, number>; m: Record<string, Measure> }> = {};
 let fail = false;
+let startedCluster: string | null = null;
 for (const s of sizes) {
 	log(`generating ${s.label} and ${s.events.toLocaleString('en')} trail events…`);
 	const g = await generateLoad({ items: s.items, events: s.events, dbName: s.db, log: (x) => log(`  ${x}`) });
+	// the cluster this benchmark started is stopped at its end, so the next benchmark finds its ports free
+	if (g.clusterStarted) startedCluster = g.clusterRoot;
 	const app = await startApp(port, {
 		REGOLOG_DB_PORT: String(g.port), REGOLOG_DB_NAME: g.dbName, REGOLOG_COUNT_QUERIES: '1', NODE_ENV: 'production'
 	}, { healthy: false });
@@ -77,6 +81,7 @@ for (const s of sizes) {
 	}
 }
 
+if (startedCluster) stopCluster({ root: startedCluster, log: () => {} });
 const [small, large] = sizes.map((s) => results[s.label]);
 console.log('\n[bench:pages] SQL statements per page load (1k → 100k items)');
 for (const name of Object.keys(small.q)) {

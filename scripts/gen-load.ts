@@ -152,7 +152,7 @@ export async function generateLoad({ items, events, dbName, log = (s) => console
 		}
 		await c.query('ANALYZE');
 		log(`${events.toLocaleString('en')} trail events in ${((performance.now() - t1) / 1000).toFixed(1)} s`);
-		return { port, dbName, specimen: codes[0], aliquot: codes[1], leaf: codes[2], items: n };
+		return { port, dbName, specimen: codes[0], aliquot: codes[1], leaf: codes[2], items: n, clusterRoot: root, clusterStarted: !cluster.reused };
 	} finally {
 		await c.end().catch(() => {});
 		await sequelize.close();
