@@ -379,33 +379,26 @@ async function verifyRange(sequelize: Sequelize, matches: string, lo: number, hi
 				}
 				return stop(`event ${expectSeq} is missing`);
 			}
-			let prevHash: string;
+			// an older event (or an odd prev_hash) comes with its prev_hash and columns as a JSON array;
+			// otherwise prev_hash is exactly the first 64 bytes of field 3, and the body the rest
+			const legacy: unknown[] | null = start[4] < 0 ? null : JSON.parse(buf.toString('utf8', start[4], end[4]));
+			const prevHash = legacy ? (legacy[0] as string) : buf.toString('latin1', start[3], start[3] + 64);
+			if (firstPrev === null) {
+				firstPrev = prevHash;
+				prev ??= prevHash;
+			}
+			// the link: prev_hash is the previous event's hash
+			if (prevHash !== prev) return stop('link to the previous event does not match');
+			// 0: the columns no longer say what the hashed body says
+			if (start[2] >= 0 && buf[start[2]] === 0) return stop('content does not match its hash');
 			let digest: string;
-			if (start[4] < 0) {
-				// prev_hash is exactly the first 64 bytes of field 3, the body the rest
-				prevHash = buf.toString('latin1', start[3], start[3] + 64);
-				if (firstPrev === null) {
-					firstPrev = prevHash;
-					prev ??= prevHash;
-				}
-				// the link: prev_hash is the previous event's hash
-				if (prevHash !== prev) return stop('link to the previous event does not match');
-				// 0: the columns no longer say what the hashed body says
-				if (start[2] >= 0 && buf[start[2]] === 0) return stop('content does not match its hash');
+			if (legacy) {
+				const [, at, actorId, actorLabel, action, subjectType, subjectId, before, after] = legacy as (string | null)[];
+				const json = (v: unknown) => (v === null ? null : JSON.stringify(v));
+				digest = sha256hex(prevHash + canonicalRawRow([String(seq), at!, actorId, actorLabel!, action!, subjectType!, subjectId!, json(before), json(after), prevHash, '']));
+			} else {
 				// the bytes prev_hash || body, hashed where they lie in the stream
 				digest = sha256hex(buf.subarray(start[3], end[3]));
-			} else {
-				const [ph, at, actorId, actorLabel, action, subjectType, subjectId, before, after] = JSON.parse(buf.toString('utf8', start[4], end[4]));
-				prevHash = ph;
-				if (firstPrev === null) {
-					firstPrev = prevHash;
-					prev ??= prevHash;
-				}
-				if (prevHash !== prev) return stop('link to the previous event does not match');
-				if (start[2] >= 0 && buf[start[2]] === 0) return stop('content does not match its hash');
-				const json = (v: unknown) => (v === null ? null : JSON.stringify(v));
-				const legacy = [String(seq), at, actorId, actorLabel, action, subjectType, subjectId, json(before), json(after), prevHash, ''] as RawRow;
-				digest = sha256hex(prevHash + canonicalRawRow(legacy));
 			}
 			if (buf.toString('latin1', start[1], end[1]) !== digest) return stop('content does not match its hash');
 			prev = digest;
@@ -444,8 +437,8 @@ async function verifyRange(sequelize: Sequelize, matches: string, lo: number, hi
  *
  * Every check of event n involves only events n − 1 and n, so the chain can also be read as
  * consecutive ranges at once (`ranges`, 1 by default): each range is checked on its own, and where
- * two meet, the first event of the later range must link to the last of the earlier one. On this
- * 2-core machine one stream is as fast (the checking process is the bottleneck), so that is left to
+ * two meet, the first event of the later range must link to the last of the earlier one. On two
+ * cores one stream is as fast (the checking process is the bottleneck), so that is left to
  * the tests, which use it to check the joins.
  */
 export async function verifyTrail(sequelize: Sequelize, opts: { ranges?: number } = {}): Promise<VerifyResult> {

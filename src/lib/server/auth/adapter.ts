@@ -1,8 +1,7 @@
 import type { Adapter, DatabaseSession, DatabaseUser } from 'lucia';
 import { Op, QueryTypes } from 'sequelize';
-import { db } from '../db';
 import type { Role } from './types';
-import { models, Session, User } from '../models';
+import { models, Session } from '../models';
 
 function toSession(s: Session): DatabaseSession {
 	return { id: s.id, userId: s.userId, expiresAt: new Date(s.expiresAt), attributes: {} };
@@ -29,7 +28,7 @@ export class SequelizeAdapter implements Adapter {
 
 	/** One round trip per request: the session, its user and the user's lab in one query. */
 	async getSessionAndUser(sessionId: string): Promise<[DatabaseSession | null, DatabaseUser | null]> {
-		const [row] = await db().query<SessionUserRow>(
+		const [row] = await models().query<SessionUserRow>(
 			`SELECT s.id, s.user_id, s.expires_at, u.id AS uid, u.email, u.name, u.role, u.lab_id, l.name AS lab_name, u.active
 			 FROM sessions s LEFT JOIN users u ON u.id = s.user_id LEFT JOIN labs l ON l.id = u.lab_id
 			 WHERE s.id = :id`,

@@ -27,16 +27,6 @@ function remember(key: string, version: number, body: string): void {
 	}
 }
 
-/** For tests: how many lineages are kept, and forgets them all when asked. */
-export function lineageCacheSize(clear = false): number {
-	const n = cache.size;
-	if (clear) {
-		cache.clear();
-		cachedBytes = 0;
-	}
-	return n;
-}
-
 /**
  * Ancestors (root first) and descendants (by level) of an item through one recursive query,
  * with the answer's JSON built by PostgreSQL (a tree of 10,000 items stays one round trip and

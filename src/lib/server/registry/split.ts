@@ -227,7 +227,7 @@ export async function splitItem(sq: Sequelize, who: Who, parentCode: string, inp
 			}
 		);
 		if (!rows.some((r) => r.split_written === splitId)) throw new Error(`split ${splitId} was not written`);
-		trailRowOf(rows);
+		trailRowOf(rows); // throws unless the trail event was appended
 		return result;
 	});
 }
