@@ -50,7 +50,7 @@ describe('lineage answers kept in memory', () => {
 		// a lab's new name shows as the holder
 		const lab = `Lineage Cache Lab ${Date.now()}`;
 		await asSuperuser(DB, async (c) => {
-			const { rows: [l] } = await c.query(`INSERT INTO labs (name, short_name) VALUES ($1, 'LCL') RETURNING id`, [lab]);
+			const { rows: [l] } = await c.query(`INSERT INTO labs (name, short_name) VALUES ($1, $2) RETURNING id`, [lab, `LCL${Date.now() % 1e6}`]);
 			await c.query(`UPDATE items SET holder_lab_id = $1, state = 'on_loan' WHERE code = $2`, [l.id, b]);
 		});
 		expect(entry(await lineage(root), b)).toMatchObject({ holder: lab, state: 'on_loan' });

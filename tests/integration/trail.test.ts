@@ -2,8 +2,7 @@ import { describe, it, expect, beforeAll, afterAll } from 'vitest';
 import { createHash } from 'node:crypto';
 import canonicalize from 'canonicalize';
 import pg from 'pg';
-import { Sequelize } from 'sequelize';
-import { to as copyTo } from 'pg-copy-streams';
+import { QueryTypes, Sequelize } from 'sequelize';
 import { migrateUp } from '../../src/lib/server/migrator';
 import fc from 'fast-check';
 import {
@@ -13,12 +12,17 @@ import {
 	canonicalRawRow,
 	chainHash,
 	verifyTrail,
-	BinaryCopyReader,
+	trailRowOf,
+	trailStatement,
 	GENESIS_HASH,
 	SYSTEM_ACTOR,
 	type TrailInput
 } from '../../src/lib/server/trail';
+import { CopyOutParser, CopyOutQuery, submitCopyOut } from '../../src/lib/server/copy-out';
 import { asSuperuser, scratchDatabase } from '../helpers/scratch-db';
+
+/** JSON that jsonb can store: no NUL, no lone surrogate. */
+const storable = (v: unknown) => !/\\u0000|\\ud[89a-f]/i.test(JSON.stringify(v));
 
 describe('SHA-256 and canonical JSON check vectors', () => {
 	it('SHA-256 of "abc" is the FIPS 180-4 example digest', () => {
@@ -205,8 +209,6 @@ describe('the trail in the database', () => {
 		const s8 = await scratchDatabase('trail_sqlhash');
 		try {
 			await migrateUp(s8.sequelize);
-			// JSON that jsonb can store (no NUL, no lone surrogate), any text for subject ids
-			const storable = (v: unknown) => !/\\u0000|\\ud[89a-f]/i.test(JSON.stringify(v));
 			const value = fc.jsonValue({ maxDepth: 3 }).filter(storable);
 			const text = fc.string({ unit: 'binary', maxLength: 30 }).filter(storable);
 			let n = 0;
@@ -229,57 +231,120 @@ describe('the trail in the database', () => {
 		}
 	});
 
+	it('fills in values the database gives where their marks stand, in the body, the hash and the columns', async () => {
+		const s9 = await scratchDatabase('trail_fill');
+		try {
+			await migrateUp(s9.sequelize);
+			const text = fc.string({ unit: 'binary', maxLength: 30 }).filter(storable);
+			const codes = fc.array(fc.stringMatching(/^[A-Z]{2,5}-[0-9]{5,9}-[0-9A-Z]$/), { minLength: 1, maxLength: 6 });
+			let n = 0;
+			await fc.assert(
+				fc.asyncProperty(text, codes, fc.boolean(), async (reason, values, reversed) => {
+					const mark = (i: number) => `@mark-${n}-${i}@`;
+					const marks = values.map((_, i) => mark(i));
+					// the marks need not stand in their own order in the text
+					const shown = reversed ? [...marks].reverse() : marks;
+					const input: TrailInput = { actor: SYSTEM_ACTOR, action: 'item.split', subjectType: 'item', subjectId: 'x', before: { reason }, after: { children: shown.map((code) => ({ code })), reason } };
+					const sqlArray = `ARRAY[${values.map((v) => `'${v}'`).join(', ')}]`;
+					const st = trailStatement(input, 'trail', { marks, values: sqlArray });
+					const got = await s9.sequelize.transaction(async (t) => trailRowOf(await s9.sequelize.query<Record<string, unknown>>(st.sql, { type: QueryTypes.SELECT, transaction: t, replacements: st.replacements })));
+					n++;
+					const [[row]] = (await s9.sequelize.query('SELECT * FROM trail_events WHERE seq = :seq', { replacements: { seq: got.seq } })) as [any[], unknown];
+					const filled = shown.map((m) => values[marks.indexOf(m)]);
+					expect(row.after).toEqual({ children: filled.map((code) => ({ code })), reason });
+					expect(row.before).toEqual({ reason });
+					expect(row.body).toBe(canonicalEvent(row));
+					expect(row.body).not.toContain('@mark-');
+					expect(row.hash).toBe(chainHash(row.prev_hash, row.body));
+					expect(row.body_matches).toBe(true);
+				}),
+				{ numRuns: 40 }
+			);
+			expect(await verifyTrail(s9.sequelize)).toEqual({ ok: true, events: n, firstBrokenAt: null });
+			// a mark that is not in the event, or is there twice, is refused before anything is sent
+			const input: TrailInput = { actor: SYSTEM_ACTOR, action: 'item.split', subjectType: 'item', subjectId: 'x', after: { a: '@m@', b: '@m@', c: '@k@' } };
+			expect(() => trailStatement(input, 'trail', { marks: ['@m@'], values: "ARRAY['A']" })).toThrow(/exactly once/);
+			expect(() => trailStatement(input, 'trail', { marks: ['@z@'], values: "ARRAY['A']" })).toThrow(/exactly once/);
+			expect(() => trailStatement(input, 'trail', { marks: ['@k@'], values: "ARRAY['A']" })).not.toThrow();
+		} finally {
+			await s9.drop();
+		}
+	});
+
 	it('verifies the same however many ranges are read at once', async () => {
 		for (const ranges of [1, 2, 3, 7, 24, 25, 26, 10_000]) {
 			expect(await verifyTrail(scratch.sequelize, { ranges })).toEqual({ ok: true, events: 25, firstBrokenAt: null });
 		}
 	});
 
-	it('reads the binary COPY stream the same whatever its chunk boundaries', async () => {
+	it('reads COPY tuples off the socket the same whatever the chunk boundaries, and hands the rest to the driver', async () => {
 		const client = new pg.Client({
 			host: process.env.REGOLOG_DB_HOST ?? '127.0.0.1', port: Number(process.env.REGOLOG_DB_PORT ?? 54320),
 			user: process.env.REGOLOG_DB_USER ?? 'regolog', password: process.env.REGOLOG_DB_PASSWORD ?? 'regolog-local', database: scratch.name
 		});
 		await client.connect();
+		// the bytes exactly as they came off the socket: CopyOutResponse, CopyData…, CopyDone, CommandComplete, ReadyForQuery
 		const chunks: Buffer[] = [];
+		const fields = (buf: Buffer, p: CopyOutParser) => {
+			const f = (i: number) => (p.start[i] < 0 ? null : buf.toString('utf8', p.start[i], p.end[i]));
+			return [Number(buf.readBigInt64BE(p.start[0])), f(1), f(2), f(3)];
+		};
 		try {
-			const stream = client.query(copyTo(`COPY (SELECT seq, hash, NULL::text, body FROM trail_events ORDER BY seq) TO STDOUT (FORMAT binary)`));
-			for await (const c of stream) chunks.push(c as Buffer);
+			const live: unknown[][] = [];
+			const q = new CopyOutQuery(`COPY (SELECT seq, hash, NULL::text, body FROM trail_events ORDER BY seq) TO STDOUT (FORMAT binary)`, 4, (buf, p) => (live.push(fields(buf, p)), true), (c) => chunks.push(Buffer.from(c)));
+			submitCopyOut(client, q);
+			await q.done;
+			expect(q.parser).toMatchObject({ ended: true, copyDone: true, finished: true, stopped: false });
+			// the driver read the end of the copy and is ready for the next query
+			expect((await client.query('SELECT 41 + 1 AS n')).rows).toEqual([{ n: 42 }]);
+			const expected = ((await scratch.sequelize.query('SELECT seq::text AS seq, hash, body FROM trail_events ORDER BY trail_events.seq'))[0] as { seq: string; hash: string; body: string }[]).map(
+				(r) => [Number(r.seq), r.hash, null, r.body]
+			);
+			expect(live).toEqual(expected);
+
+			const whole = Buffer.concat(chunks);
+			const read = (pieces: Buffer[]) => {
+				const got: unknown[][] = [];
+				let rest: Buffer | null = null;
+				const p = new CopyOutParser(4, (buf, r) => (got.push(fields(buf, r)), true), (b) => (rest = Buffer.from(b)));
+				// once the copy is over, the driver reads the chunks that follow (as CopyOutQuery arranges)
+				for (const piece of pieces) {
+					if (p.finished) rest = Buffer.concat([rest!, piece]);
+					else p.push(piece);
+				}
+				return { got, ended: p.ended, rest: rest === null ? null : (rest as Buffer).toString('latin1') };
+			};
+			const first = read([whole]);
+			expect(first.got).toEqual(expected);
+			expect(first.ended).toBe(true);
+			// what is left for the driver starts with CommandComplete ('C') "COPY n" and ends with ReadyForQuery ('Z')
+			expect(first.rest).toMatch(new RegExp(`^C\\0\\0\\0.COPY ${expected.length}\\0Z`, 's'));
+			for (const size of [1, 2, 3, 5, 19, 64, 333, 4096]) {
+				const pieces = [];
+				for (let i = 0; i < whole.length; i += size) pieces.push(whole.subarray(i, i + size));
+				expect(read(pieces)).toEqual(first);
+			}
+			fc.assert(
+				fc.property(fc.uniqueArray(fc.integer({ min: 1, max: whole.length - 1 }), { maxLength: 40 }), (cuts) => {
+					const at = [0, ...cuts.sort((a, b) => a - b), whole.length];
+					const pieces = at.slice(1).map((end, i) => whole.subarray(at[i], end));
+					expect(read(pieces)).toEqual(first);
+				}),
+				{ numRuns: 60 }
+			);
+			// a stream cut short has not ended; bytes that are not COPY data are refused
+			expect(read([whole.subarray(0, whole.length - 40)]).ended).toBe(false);
+			const notCopy = Buffer.concat([Buffer.from([0x64, 0, 0, 0, 28]), Buffer.from('not a copy stream at all')]);
+			expect(() => read([notCopy])).toThrow(/not PostgreSQL binary COPY data/);
+
+			// an error part-way through the copy reaches the caller, and the connection stays usable
+			const failing = new CopyOutQuery(`COPY (SELECT seq, hash, NULL::text, (1 / (seq - 3))::text FROM trail_events ORDER BY seq) TO STDOUT (FORMAT binary)`, 4, () => true);
+			submitCopyOut(client, failing);
+			await expect(failing.done).rejects.toThrow(/division by zero/);
+			expect((await client.query('SELECT 1 AS n')).rows).toEqual([{ n: 1 }]);
 		} finally {
 			await client.end();
 		}
-		const whole = Buffer.concat(chunks);
-		const expected = ((await scratch.sequelize.query('SELECT seq::text AS seq, hash, body FROM trail_events ORDER BY trail_events.seq'))[0] as { seq: string; hash: string; body: string }[]).map(
-			(r) => [Number(r.seq), r.hash, null, r.body]
-		);
-		const read = (pieces: Buffer[]) => {
-			const got: unknown[][] = [];
-			const reader = new BinaryCopyReader(4, (buf, r) => {
-				const f = (i: number) => (r.start[i] < 0 ? null : buf.toString('utf8', r.start[i], r.end[i]));
-				got.push([Number(buf.readBigInt64BE(r.start[0])), f(1), f(2), f(3)]);
-				return true;
-			});
-			for (const p of pieces) reader.push(p);
-			return { got, ended: reader.ended };
-		};
-		expect(read([whole])).toEqual({ got: expected, ended: true });
-		// cut into pieces of every size from 1 byte up, and at random places
-		for (const size of [1, 2, 3, 5, 19, 64, 333, 4096]) {
-			const pieces = [];
-			for (let i = 0; i < whole.length; i += size) pieces.push(whole.subarray(i, i + size));
-			expect(read(pieces)).toEqual({ got: expected, ended: true });
-		}
-		fc.assert(
-			fc.property(fc.uniqueArray(fc.integer({ min: 1, max: whole.length - 1 }), { maxLength: 40 }), (cuts) => {
-				const at = [0, ...cuts.sort((a, b) => a - b), whole.length];
-				const pieces = at.slice(1).map((end, i) => whole.subarray(at[i], end));
-				expect(read(pieces)).toEqual({ got: expected, ended: true });
-			}),
-			{ numRuns: 60 }
-		);
-		// a stream cut short has not ended, and what it holds is not a tuple
-		expect(read([whole.subarray(0, whole.length - 3)]).ended).toBe(false);
-		expect(() => read([Buffer.from('not a copy stream at all')])).toThrow(/not PostgreSQL binary COPY data/);
 	});
 
 	it('refuses UPDATE, DELETE and TRUNCATE through the app’s own connection', async () => {

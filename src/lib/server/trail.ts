@@ -1,7 +1,7 @@
 import { createHash, hash as cryptoHash } from 'node:crypto';
 import canonicalize from 'canonicalize';
 import pg from 'pg';
-import { to as copyTo } from 'pg-copy-streams';
+import { CopyOutQuery, submitCopyOut, type CopyOutParser } from './copy-out';
 import { QueryTypes, type Sequelize, type Transaction } from 'sequelize';
 
 export const GENESIS_HASH = '0'.repeat(64);
@@ -67,6 +67,20 @@ function plain(v: unknown): unknown {
 	return v === undefined ? null : JSON.parse(JSON.stringify(v));
 }
 
+/**
+ * Values of the event that only the database knows when the statement is sent (a split's children
+ * codes, taken from the collection's counter in the same round trip). Each mark is a string that
+ * stands in for its value in `before` and `after`; it must occur exactly once in the event's
+ * canonical JSON, so a mark should carry a random part nobody else can write. `values` is an SQL
+ * expression of type text[] giving the value of marks[i] at position i + 1; each value must need no
+ * escaping in JSON (digits, capital letters, hyphens). The INSERT splices the values into the
+ * canonical text in place of the marks, and stores before and after as parsed from that text.
+ */
+export interface TrailFill {
+	marks: string[];
+	values: string;
+}
+
 /** SQL and replacements that append one event; see appendTrail. */
 export interface TrailStatement {
 	sql: string;
@@ -91,7 +105,7 @@ export interface TrailStatement {
  * sha256() in the same INSERT, so an append is one round trip. verifyTrail checks every hash with
  * node's own SHA-256, and the trail tests check the two agree.
  */
-export function trailStatement(input: TrailInput, name = 'trail'): TrailStatement {
+export function trailStatement(input: TrailInput, name = 'trail', fill?: TrailFill): TrailStatement {
 	const row = {
 		seq: 0,
 		at: new Date(),
@@ -107,20 +121,47 @@ export function trailStatement(input: TrailInput, name = 'trail'): TrailStatemen
 	const tail = ',"seq":0,"subject":' + canonicalParsed({ id: row.subject_id, type: row.subject_type }) + '}';
 	if (!text.endsWith(tail)) throw new Error('trail event: unexpected canonical form');
 	const p = (k: string) => `:${name}_${k}`;
+	const head = text.slice(0, text.length - tail.length) + ',"seq":';
+	const values: Record<string, unknown> = {
+		at: row.at, actor_id: row.actor_id, actor_label: row.actor_label, action: row.action, subject_type: row.subject_type, subject_id: row.subject_id,
+		before: JSON.stringify(row.before), after: JSON.stringify(row.after),
+		head, tail: tail.slice(',"seq":0'.length)
+	};
+	let headSql = p('head');
+	let lateral = '';
+	let before = `CAST(${p('before')} AS jsonb)`;
+	let after = `CAST(${p('after')} AS jsonb)`;
+	if (fill && fill.marks.length) {
+		// the head cut at each mark, in the order the marks occur in the text
+		const at = fill.marks.map((m, i) => {
+			const k = head.indexOf(m);
+			if (k < 0 || head.indexOf(m, k + 1) >= 0) throw new Error(`trail event: mark ${i} must occur exactly once in the event`);
+			return { i, k, len: m.length };
+		});
+		at.sort((a, b) => a.k - b.k);
+		const parts: string[] = [];
+		let from = 0;
+		for (const m of at) {
+			parts.push(head.slice(from, m.k));
+			from = m.k + m.len;
+		}
+		parts.push(head.slice(from));
+		delete values.head;
+		parts.forEach((part, j) => (values[`part${j}`] = part));
+		headSql = parts.map((_, j) => p(`part${j}`)).reduce((sql, part, j) => (j === 0 ? part : `${sql} || f.v[${at[j - 1].i + 1}] || ${part}`), '');
+		lateral = `LATERAL (SELECT CAST(${fill.values} AS text[]) AS v) f,`;
+		before = `(b.body::jsonb)->'before'`;
+		after = `(b.body::jsonb)->'after'`;
+	}
 	const sql = `SELECT pg_advisory_xact_lock(${TRAIL_LOCK}) AS trail_locked;
 		INSERT INTO trail_events (seq, at, actor_id, actor_label, action, subject_type, subject_id, before, after, prev_hash, hash, body)
 		SELECT h.seq, ${p('at')}, ${p('actor_id')}, ${p('actor_label')}, ${p('action')}, ${p('subject_type')}, ${p('subject_id')},
-		       CAST(${p('before')} AS jsonb), CAST(${p('after')} AS jsonb), h.prev, encode(sha256(convert_to(h.prev || b.body, 'UTF8')), 'hex'), b.body
+		       ${before}, ${after}, h.prev, encode(sha256(convert_to(h.prev || b.body, 'UTF8')), 'hex'), b.body
 		FROM (SELECT coalesce(max(seq), 0) + 1 AS seq,
-		             coalesce((SELECT hash FROM trail_events ORDER BY seq DESC LIMIT 1), '${GENESIS_HASH}') AS prev FROM trail_events) h,
-		     LATERAL (SELECT ${p('head')} || h.seq::text || ${p('tail')} AS body) b
+		             coalesce((SELECT hash FROM trail_events ORDER BY seq DESC LIMIT 1), '${GENESIS_HASH}') AS prev FROM trail_events) h, ${lateral}
+		     LATERAL (SELECT ${headSql} || h.seq::text || ${p('tail')} AS body) b
 		RETURNING seq AS trail_seq, prev_hash AS trail_prev_hash, hash AS trail_hash`;
 	const replacements: Record<string, unknown> = {};
-	const values = {
-		at: row.at, actor_id: row.actor_id, actor_label: row.actor_label, action: row.action, subject_type: row.subject_type, subject_id: row.subject_id,
-		before: JSON.stringify(row.before), after: JSON.stringify(row.after),
-		head: text.slice(0, text.length - tail.length) + ',"seq":', tail: tail.slice(',"seq":0'.length)
-	};
 	for (const [k, v] of Object.entries(values)) replacements[`${name}_${k}`] = v;
 	return { sql, replacements };
 }
@@ -206,20 +247,19 @@ export function canonicalRawRow(r: RawRow): string {
 const AT_ISO = `to_char(at AT TIME ZONE 'UTC', 'YYYY-MM-DD"T"HH24:MI:SS.MS"Z"')`;
 
 /**
- * The verification stream, one tuple per event in seq order, in PostgreSQL's binary COPY format:
- * 0 seq; 1 hash; 2 whether the columns still say what the body says; 3 prev_hash || body, the exact
- * bytes the hash covers, in one field; 4 NULL, except for an event written before bodies were
- * stored (body NULL) or whose prev_hash is not 64 characters long, which gets its prev_hash and
- * columns as one JSON array for canonicalRawRow. `matches` is the stored generated column
- * body_matches (migration 0031), which the database recomputes on every write of the row; when
- * its definition is not intact the same comparison is made in this query instead, row by row
- * (slower, same findings).
+ * The verification stream, one tuple per event, in PostgreSQL's binary COPY format: 0 seq; 1 hash;
+ * 2 whether the columns still say what the body says; 3 prev_hash; 4 body; 5 NULL, except for an
+ * event written before bodies were stored (body NULL) or whose prev_hash is not 64 characters long,
+ * which gets its prev_hash and columns as one JSON array for canonicalRawRow. `matches` is the
+ * stored generated column body_matches (migration 0031), which the database recomputes on every
+ * write of the row; when its definition is not intact the same comparison is made in this query
+ * instead, row by row (slower, same findings).
  */
-const verifyCopy = (matches: string, lo: number, hi: number, physical: boolean) => `COPY (SELECT seq, hash, ${matches}, prev_hash || coalesce(body, ''),
+const verifyCopy = (matches: string, lo: number, hi: number, physical: boolean) => `COPY (SELECT seq, hash, ${matches}, prev_hash, body,
 	CASE WHEN body IS NULL OR octet_length(prev_hash) <> 64 THEN
 		json_build_array(prev_hash, ${AT_ISO}, actor_id, actor_label, action, subject_type, subject_id, before, after)::text END
 	FROM trail_events WHERE seq BETWEEN ${lo} AND ${hi}${physical ? '' : ' ORDER BY seq'}) TO STDOUT (FORMAT binary)`;
-const VERIFY_FIELDS = 5;
+const VERIFY_FIELDS = 6;
 const BODY_MATCHES_EXPR = 'trail_body_matches(body, seq, at, actor_id, actor_label, action, subject_type, subject_id, before, after)';
 /** Is body_matches still a stored column generated by trail_body_matches? */
 const GENERATED_CHECK = `SELECT a.attgenerated = 's' AND pg_get_expr(d.adbin, d.adrelid) LIKE '${BODY_MATCHES_EXPR}' AS intact
@@ -228,108 +268,11 @@ const GENERATED_CHECK = `SELECT a.attgenerated = 's' AND pg_get_expr(d.adbin, d.
 const sha256hex: (data: string | Buffer) => string =
 	typeof cryptoHash === 'function' ? (data) => cryptoHash('sha256', data, 'hex') : (data) => createHash('sha256').update(data).digest('hex');
 
-const COPY_SIGNATURE = Buffer.from('PGCOPY\n\xff\r\n\0', 'latin1');
-const STOP = -1;
-
-/**
- * Splits PostgreSQL's binary COPY output into tuples, whatever the chunk boundaries (PostgreSQL
- * documentation, COPY, "Binary Format": an 11-byte signature, a 32-bit flags field and a header
- * extension; then per tuple a 16-bit field count and, per field, a 32-bit length, −1 for NULL,
- * followed by that many bytes; a field count of −1 ends the data). For each complete tuple it
- * sets `start`/`end` of every field (start −1 for NULL) and calls `onTuple` with the buffer they
- * point into, which is valid only during the call; `onTuple` returns false to stop reading.
- */
-export class BinaryCopyReader {
-	readonly start: Int32Array;
-	readonly end: Int32Array;
-	ended = false;
-	private pending: Buffer | null = null;
-	private headerRead = false;
-
-	constructor(
-		readonly fields: number,
-		private readonly onTuple: (buf: Buffer, r: BinaryCopyReader) => boolean
-	) {
-		this.start = new Int32Array(fields);
-		this.end = new Int32Array(fields);
-	}
-
-	/** Reads a chunk; false when onTuple asked to stop. */
-	push(chunk: Buffer): boolean {
-		let off = 0;
-		if (this.pending) {
-			// finish the tuple begun in an earlier chunk: join it with just enough of this one
-			let take = Math.min(chunk.length, 8192);
-			for (;;) {
-				const joined = Buffer.concat([this.pending, chunk.subarray(0, take)]);
-				const r = this.parse(joined, 0, true);
-				if (r === STOP) return false;
-				if (r > 0 || this.ended) {
-					off = r - this.pending.length;
-					this.pending = null;
-					break;
-				}
-				if (take === chunk.length) {
-					this.pending = joined;
-					return true;
-				}
-				take = Math.min(chunk.length, take * 4);
-			}
-			if (this.ended) return true;
-		}
-		const r = this.parse(chunk, off, false);
-		if (r === STOP) return false;
-		if (!this.ended && r < chunk.length) this.pending = Buffer.from(chunk.subarray(r)); // a copy: the chunk is not held on to
-		return true;
-	}
-
-	/**
-	 * Parses complete tuples (one at most when `one`) from `off`; returns where parsing stopped,
-	 * 0 when not even one thing could be read from a joined buffer, or STOP.
-	 */
-	private parse(buf: Buffer, off: number, one: boolean): number {
-		if (!this.headerRead) {
-			if (buf.length < 19) return 0;
-			if (!buf.subarray(0, 11).equals(COPY_SIGNATURE)) throw new Error('not PostgreSQL binary COPY data');
-			const header = 19 + buf.readUInt32BE(15);
-			if (buf.length < header) return 0;
-			off = header;
-			this.headerRead = true;
-			if (one) return off;
-		}
-		const { start, end } = this;
-		const n = this.fields;
-		const length = buf.length;
-		while (off + 2 <= length) {
-			const count = buf.readInt16BE(off);
-			if (count === -1) {
-				this.ended = true;
-				return off + 2;
-			}
-			if (count !== n) throw new Error(`COPY tuple has ${count} fields, expected ${n}`);
-			let p = off + 2;
-			let i = 0;
-			for (; i < n; i++) {
-				if (p + 4 > length) break;
-				const len = buf.readInt32BE(p);
-				p += 4;
-				if (len === -1) {
-					start[i] = -1;
-					end[i] = -1;
-					continue;
-				}
-				if (p + len > length) break;
-				start[i] = p;
-				end[i] = p + len;
-				p += len;
-			}
-			if (i < n) break; // the tuple goes on in the next chunk
-			if (!this.onTuple(buf, this)) return STOP;
-			off = p;
-			if (one) return off;
-		}
-		return one ? 0 : off;
-	}
+/** Are the bytes buf[from, to) the characters of `text` (hex digits here), one byte each? No string is made. */
+function bytesAre(buf: Buffer, from: number, to: number, text: string): boolean {
+	if (to - from !== text.length) return false;
+	for (let i = 0; i < text.length; i++) if (buf[from + i] !== text.charCodeAt(i)) return false;
+	return true;
 }
 
 interface RangeResult {
@@ -358,9 +301,12 @@ function connect(sequelize: Sequelize): pg.Client {
 async function verifyRange(sequelize: Sequelize, matches: string, lo: number, hi: number, physical = false): Promise<RangeResult> {
 	const client = connect(sequelize);
 	await client.connect();
-	let stream: ReturnType<typeof copyTo> | null = null;
+	let q: CopyOutQuery | null = null;
 	try {
-		let prev: string | null = lo === 1 ? GENESIS_HASH : null;
+		// the previous event's hash: known from the start for the first range; any other takes its
+		// first event's prev_hash as given
+		let prev = GENESIS_HASH;
+		let havePrev = lo === 1;
 		let firstPrev: string | null = null;
 		let expectSeq = lo;
 		let broken: RangeResult['broken'] = null;
@@ -369,7 +315,7 @@ async function verifyRange(sequelize: Sequelize, matches: string, lo: number, hi
 			broken = { at: expectSeq, reason };
 			return false;
 		};
-		const reader = new BinaryCopyReader(VERIFY_FIELDS, (buf, r) => {
+		const onTuple = (buf: Buffer, r: CopyOutParser) => {
 			const { start, end } = r;
 			const seq = buf.readUInt32BE(start[0]) * 4294967296 + buf.readUInt32BE(start[0] + 4);
 			if (seq !== expectSeq) {
@@ -379,43 +325,57 @@ async function verifyRange(sequelize: Sequelize, matches: string, lo: number, hi
 				}
 				return stop(`event ${expectSeq} is missing`);
 			}
-			// an older event (or an odd prev_hash) comes with its prev_hash and columns as a JSON array;
-			// otherwise prev_hash is exactly the first 64 bytes of field 3, and the body the rest
-			const legacy: unknown[] | null = start[4] < 0 ? null : JSON.parse(buf.toString('utf8', start[4], end[4]));
-			const prevHash = legacy ? (legacy[0] as string) : buf.toString('latin1', start[3], start[3] + 64);
+			if (start[5] >= 0) {
+				// an older event (or an odd prev_hash): its prev_hash and columns come as a JSON array
+				const legacy = JSON.parse(buf.toString('utf8', start[5], end[5])) as (string | null)[];
+				const prevHash = legacy[0]!;
+				if (firstPrev === null) {
+					firstPrev = prevHash;
+					if (!havePrev) prev = prevHash;
+					havePrev = true;
+				}
+				if (prevHash !== prev) return stop('link to the previous event does not match');
+				if (start[2] >= 0 && buf[start[2]] === 0) return stop('content does not match its hash');
+				const [, at, actorId, actorLabel, action, subjectType, subjectId, before, after] = legacy;
+				const json = (v: unknown) => (v === null ? null : JSON.stringify(v));
+				const digest = sha256hex(prevHash + canonicalRawRow([String(seq), at!, actorId, actorLabel!, action!, subjectType!, subjectId!, json(before), json(after), prevHash, '']));
+				if (buf.toString('latin1', start[1], end[1]) !== digest) return stop('content does not match its hash');
+				prev = digest;
+				expectSeq++;
+				return true;
+			}
+			// prev_hash is 64 bytes here, and the body's 4-byte length lies between it and the body
+			const ps = start[3];
+			const bs = start[4];
 			if (firstPrev === null) {
-				firstPrev = prevHash;
-				prev ??= prevHash;
+				firstPrev = buf.toString('latin1', ps, ps + 64);
+				if (!havePrev) prev = firstPrev;
+				havePrev = true;
 			}
 			// the link: prev_hash is the previous event's hash
-			if (prevHash !== prev) return stop('link to the previous event does not match');
+			if (!bytesAre(buf, ps, ps + 64, prev)) return stop('link to the previous event does not match');
 			// 0: the columns no longer say what the hashed body says
 			if (start[2] >= 0 && buf[start[2]] === 0) return stop('content does not match its hash');
-			let digest: string;
-			if (legacy) {
-				const [, at, actorId, actorLabel, action, subjectType, subjectId, before, after] = legacy as (string | null)[];
-				const json = (v: unknown) => (v === null ? null : JSON.stringify(v));
-				digest = sha256hex(prevHash + canonicalRawRow([String(seq), at!, actorId, actorLabel!, action!, subjectType!, subjectId!, json(before), json(after), prevHash, '']));
-			} else {
-				// the bytes prev_hash || body, hashed where they lie in the stream
-				digest = sha256hex(buf.subarray(start[3], end[3]));
-			}
-			if (buf.toString('latin1', start[1], end[1]) !== digest) return stop('content does not match its hash');
+			// the hashed bytes are prev_hash || body: move prev_hash up over the length word to join them
+			buf.copyWithin(bs - 64, ps, ps + 64);
+			const digest = sha256hex(buf.subarray(bs - 64, end[4]));
+			if (!bytesAre(buf, start[1], end[1], digest)) return stop('content does not match its hash');
 			prev = digest;
 			expectSeq++;
 			return true;
-		});
-		stream = client.query(copyTo(verifyCopy(matches, lo, hi, physical)));
-		for await (const chunk of stream) {
-			if (!reader.push(chunk as Buffer)) break;
-		}
+		};
+		// JIT compiling this one scan's expressions costs more than it saves
+		await client.query('SET jit = off');
+		q = new CopyOutQuery(verifyCopy(matches, lo, hi, physical), VERIFY_FIELDS, onTuple);
+		submitCopyOut(client, q);
+		await q.done;
 		if (outOfOrder) return { outOfOrder, firstPrev: null, lastHash: null, broken: null };
-		if (!broken && !reader.ended) throw new Error('the trail stream ended early');
+		if (!broken && !q.parser.ended) throw new Error('the trail stream ended early');
 		if (!broken && expectSeq <= hi) stop(`event ${expectSeq} is missing`);
 		return { firstPrev, lastHash: expectSeq > lo ? prev : null, broken };
 	} finally {
 		// stopping part-way through a COPY leaves the connection mid-protocol: close it outright
-		if (stream && !stream.readableEnded) client.connection.stream.destroy();
+		if (q && !q.parser?.finished) q.abandon();
 		await client.end().catch(() => {});
 	}
 }
@@ -430,8 +390,8 @@ async function verifyRange(sequelize: Sequelize, matches: string, lo: number, hi
  * the trail's back is still found at its own event. An event without a body (written before bodies
  * were stored) has its canonical JSON rebuilt from the columns by canonicalRawRow.
  *
- * The chain comes as binary COPY streams (no per-row protocol parsing), and the hashed bytes are
- * hashed where they lie in the stream, with no copy and no text decoding. It is read in the table's
+ * The chain comes as binary COPY streams read straight off the socket (copy-out.ts: no per-row
+ * objects), and each event's bytes are hashed and compared where they lie, with no text decoding. It is read in the table's
  * physical order, which for this append-only table is seq order, and read again in seq order
  * through the index if an event is out of place (see verifyRange).
  *

@@ -94,12 +94,16 @@ export interface ItemRow {
 	created_at: Date;
 	/** changes with every change to the collection's items (migration 0051) */
 	lineage_version: number;
+	/** the collection's loss tolerance: an absolute one, or else a fraction */
+	loss_tolerance_ug: number | null;
+	loss_tolerance_fraction: string | null;
 }
 
 export const ITEM_COLUMNS = `
 	i.id, i.code, i.serial, i.collection_id, c.prefix, c.name AS collection_name, i.parent_id, p.code AS parent_code,
 	i.depth, i.kind, i.description, i.initial_mass_ug, i.mass_ug, i.mass_u_ug, i.state, i.holder_lab_id,
-	l.name AS holder_name, i.container, i.storage_place, i.provenance, i.created_at, c.lineage_version`;
+	l.name AS holder_name, i.container, i.storage_place, i.provenance, i.created_at, c.lineage_version,
+	c.loss_tolerance_ug, c.loss_tolerance_fraction`;
 
 export const ITEM_FROM = `
 	items i JOIN collections c ON c.id = i.collection_id

@@ -1,8 +1,7 @@
 import { randomUUID } from 'node:crypto';
 import { z } from 'zod';
-import { QueryTypes, type Sequelize, type Transaction } from 'sequelize';
+import { QueryTypes, type Sequelize } from 'sequelize';
 import { splitBudget, type LossTolerance, type SplitBudget } from '../../domain/budget';
-import { formatCode } from '../../domain/codes';
 import { formatMg } from '../../domain/mass';
 import { ApiProblem } from '../api';
 import { trailRowOf, trailStatement } from '../trail';
@@ -43,21 +42,6 @@ export interface CollectionRules {
 
 export function toleranceOf(c: Pick<CollectionRules, 'loss_tolerance_ug' | 'loss_tolerance_fraction'>): LossTolerance {
 	return c.loss_tolerance_ug !== null ? { ug: Number(c.loss_tolerance_ug) } : { fraction: Number(c.loss_tolerance_fraction) };
-}
-
-/**
- * The parent's collection rules, the parent's next ledger number (stable: the parent is locked) and
- * `n` fresh serials for the children, in one statement. Taking the serials locks the collection's
- * row until the commit, so serials stay gapless; a refused split rolls the counter back with it.
- */
-async function rulesSeqAndSerials(sq: Sequelize, t: Transaction, parent: ItemRow, n: number): Promise<CollectionRules & { next_seq: number; first: number }> {
-	const [c] = await sq.query<CollectionRules & { next_seq: number; first: number }>(
-		`UPDATE collections SET next_serial = next_serial + :n WHERE id = :id
-		 RETURNING id, prefix, loss_tolerance_ug, loss_tolerance_fraction, (next_serial - :n)::bigint AS first,
-		           (SELECT coalesce(max(seq), 0) + 1 FROM ledger_entries WHERE item_id = :parent)::int AS next_seq`,
-		{ type: QueryTypes.SELECT, replacements: { id: parent.collection_id, parent: parent.id, n }, transaction: t }
-	);
-	return c;
 }
 
 /** Sends the budget's refusal as the API's answer: 409 when the mass is not there, 422 otherwise. */
@@ -105,7 +89,6 @@ export async function splitItem(sq: Sequelize, who: Who, parentCode: string, inp
 			});
 		}
 		const balance: BalanceView | null = input.balanceId === undefined ? null : await balanceForWeighing(sq, t, input.balanceId);
-		const rules = await rulesSeqAndSerials(sq, t, parent, input.children.length);
 		const u0 = parent.mass_u_ug ?? 0;
 		const uChild = balance ? balance.netUUg : 0;
 		const budget = splitBudget(
@@ -114,7 +97,7 @@ export async function splitItem(sq: Sequelize, who: Who, parentCode: string, inp
 				children: input.children.map((c) => ({ massUg: c.massUg, u: uChild })),
 				parentAfter: input.parentAfterUg === undefined ? null : { massUg: input.parentAfterUg, u: balance!.netUUg }
 			},
-			{ tolerance: toleranceOf(rules), ...(balance ? { minimumWeightUg: balance.minimumWeightUg } : {}) }
+			{ tolerance: toleranceOf(parent), ...(balance ? { minimumWeightUg: balance.minimumWeightUg } : {}) }
 		);
 		const reason = input.reason || undefined;
 		refuse(budget, parent, reason);
@@ -124,12 +107,15 @@ export async function splitItem(sq: Sequelize, who: Who, parentCode: string, inp
 		const uAfter = budget.reweighed ? balance!.netUUg : Math.sqrt(u0 * u0 + input.children.length * uChild * uChild);
 		const splitId = randomUUID();
 
-		// the collection's serial counter is locked until the commit: everything is written in one statement
-		const first = Number(rules.first);
+		// The children's serials and codes are taken from the collection's counter by the statement that
+		// writes them (item_code, migration 0052): the counter's row stays locked from there to the
+		// commit, so serials stay gapless and a refused split takes none. Until then a child is known by
+		// its position, and its code in the trail event by a mark the statement fills in.
+		const mark = `@${randomUUID()}@`;
 		const children = input.children.map((c, i) => ({
 			id: randomUUID(),
-			code: formatCode(rules.prefix, first + i),
-			serial: first + i,
+			ord: i,
+			mark: `${mark}${i}`,
 			massUg: c.massUg,
 			uUg: balance ? uChild : null,
 			tareUg: c.tareUg ?? 0,
@@ -149,22 +135,24 @@ export async function splitItem(sq: Sequelize, who: Who, parentCode: string, inp
 			weighings.push({ id: parentWeighingId, item: parent.id, purpose: 'split_parent_after', gross: budget.parentAfterUg, tare: 0, net: budget.parentAfterUg, below, reason: below ? (reason ?? 'parent remainder below the minimum weight') : null });
 		}
 
-		// ledger: the parent gives each child its mass, then the measured loss; each child starts with its mass
+		// ledger: the parent gives each child its mass, then the measured loss; each child starts with its
+		// mass. The parent's entries are numbered after its last one (it is locked), a child's from 1;
+		// `child`: the note names that child's code, filled in by the statement.
 		const entries: object[] = [];
 		let running = parent.mass_ug;
 		let uRun = u0 * u0;
-		let seq = rules.next_seq;
+		let seq = 1;
 		for (const c of children) {
 			running -= c.massUg;
 			uRun += uChild * uChild;
-			entries.push({ item: parent.id, seq: seq++, kind: 'split_out', delta: -c.massUg, after: running, u: Math.sqrt(uRun), counterpart: c.id, weighing: null, note: `to ${c.code}` });
+			entries.push({ item: parent.id, own: true, seq: seq++, kind: 'split_out', delta: -c.massUg, after: running, u: Math.sqrt(uRun), counterpart: c.id, weighing: null, child: c.ord, note: '' });
 		}
 		if (budget.reweighed) {
 			running -= budget.lossUg;
-			entries.push({ item: parent.id, seq: seq++, kind: 'split_loss', delta: -budget.lossUg, after: running, u: uAfter, counterpart: null, weighing: parentWeighingId, note: reason ?? '' });
+			entries.push({ item: parent.id, own: true, seq: seq++, kind: 'split_loss', delta: -budget.lossUg, after: running, u: uAfter, counterpart: null, weighing: parentWeighingId, child: null, note: reason ?? '' });
 		}
 		for (const c of children) {
-			entries.push({ item: c.id, seq: 1, kind: 'split_in', delta: c.massUg, after: c.massUg, u: c.uUg, counterpart: parent.id, weighing: c.weighingId, note: `from ${parent.code}` });
+			entries.push({ item: c.id, own: false, seq: 1, kind: 'split_in', delta: c.massUg, after: c.massUg, u: c.uUg, counterpart: parent.id, weighing: c.weighingId, child: null, note: `from ${parent.code}` });
 		}
 		if (running !== budget.parentAfterUg) throw new Error(`ledger of ${parent.code} does not close: ${running} ≠ ${budget.parentAfterUg}`);
 
@@ -184,31 +172,47 @@ export async function splitItem(sq: Sequelize, who: Who, parentCode: string, inp
 			handlingSessionId: input.handlingSessionId ?? null,
 			issues: budget.issues.map((i) => i.message),
 			balance: balance ? { id: balance.id, name: balance.name } : null,
-			children: children.map((c) => ({ code: c.code, massUg: c.massUg, uUg: c.uUg, belowMinimum: c.belowMinimum }))
+			children: children.map((c) => ({ code: c.mark, massUg: c.massUg, uUg: c.uUg, belowMinimum: c.belowMinimum }))
 		};
 		// the change and its trail event in one round trip: the split's statement, then the trail's
-		const trail = trailStatement({ actor: trailActor(who), action: 'item.split', subjectType: 'item', subjectId: parent.id, before: { code: parent.code, massUg: parent.mass_ug }, after: result });
+		const n = children.length;
+		const trail = trailStatement(
+			{ actor: trailActor(who), action: 'item.split', subjectType: 'item', subjectId: parent.id, before: { code: parent.code, massUg: parent.mass_ug }, after: result },
+			'trail',
+			{
+				marks: children.map((c) => c.mark),
+				// the serials the statement before took: the counter's row is still locked by this transaction
+				values: `(SELECT array_agg(item_code(c.prefix, c.next_serial - ${n} + g) ORDER BY g) FROM collections c, generate_series(0, ${n - 1}) g WHERE c.id = :collection)`
+			}
+		);
 		const rows = await sq.query<Record<string, unknown>>(
-			`WITH s AS (
+			`WITH c AS (
+				UPDATE collections SET next_serial = next_serial + :n WHERE id = :collection RETURNING prefix, next_serial - :n AS first
+			), k AS (
+				SELECT x.*, c.first + x.ord AS serial, item_code(c.prefix, c.first + x.ord) AS code
+				FROM c, jsonb_to_recordset(CAST(:children AS jsonb)) AS x(id uuid, ord int, description text, mass bigint, u double precision, container text, storage text)
+			), base AS (
+				SELECT coalesce(max(seq), 0) AS seq FROM ledger_entries WHERE item_id = :parent
+			), s AS (
 				INSERT INTO splits (id, at, parent_id, balance_id, parent_before_ug, parent_after_ug, children_total_ug, loss_ug, loss_u_ug, reweighed, verdict, reason, operator_id, handling_session_id)
 				VALUES (:split, :at, :parent, :balance, :p0, :p1, :total, :loss, :lossU, :reweighed, :verdict, :reason, :op, :session) RETURNING id
 			), i AS (
 				INSERT INTO items (id, collection_id, serial, code, parent_id, depth, kind, description, initial_mass_ug, mass_ug, mass_u_ug,
 				                   holder_lab_id, container, storage_place, split_id, created_by)
-				SELECT x.id, :collection, x.serial, x.code, :parent, :depth, 'aliquot', x.description, x.mass, x.mass, x.u, NULL, x.container, x.storage, :split, :op
-				FROM jsonb_to_recordset(CAST(:children AS jsonb)) AS x(id uuid, serial bigint, code text, description text, mass bigint, u double precision, container text, storage text)
+				SELECT k.id, :collection, k.serial, k.code, :parent, :depth, 'aliquot', k.description, k.mass, k.mass, k.u, NULL, k.container, k.storage, :split, :op FROM k
 			), w AS (
 				INSERT INTO weighings (id, item_id, balance_id, purpose, gross_ug, tare_ug, net_ug, u_ug, expanded_ug, minimum_weight_ug, below_minimum, reason, split_id, operator_id)
 				SELECT x.id, x.item, :balance, x.purpose, x.gross, x.tare, x.net, :u, :U, :min, x.below, x.reason, :split, :op
 				FROM jsonb_to_recordset(CAST(:weighings AS jsonb)) AS x(id uuid, item uuid, purpose text, gross bigint, tare bigint, net bigint, below boolean, reason text)
 			), l AS (
 				INSERT INTO ledger_entries (item_id, seq, kind, delta_ug, balance_after_ug, u_after_ug, split_id, weighing_id, counterpart_id, note, actor_id)
-				SELECT x.item, x.seq, x.kind, x.delta, x.after, x.u, :split, x.weighing, x.counterpart, x.note, :op
-				FROM jsonb_to_recordset(CAST(:entries AS jsonb)) AS x(item uuid, seq int, kind text, delta bigint, after bigint, u double precision, weighing uuid, counterpart uuid, note text)
+				SELECT x.item, x.seq + CASE WHEN x.own THEN base.seq ELSE 0 END, x.kind, x.delta, x.after, x.u, :split, x.weighing, x.counterpart,
+				       CASE WHEN x.child IS NULL THEN x.note ELSE 'to ' || (SELECT k.code FROM k WHERE k.ord = x.child) END, :op
+				FROM base, jsonb_to_recordset(CAST(:entries AS jsonb)) AS x(item uuid, own boolean, seq int, kind text, delta bigint, after bigint, u double precision, weighing uuid, counterpart uuid, child int, note text)
 			), p AS (
 				UPDATE items SET mass_ug = :p1, mass_u_ug = :uAfter, updated_at = now() WHERE id = :parent
 			)
-			SELECT id AS split_written FROM s;
+			SELECT s.id AS split_written, (SELECT json_agg(k.code ORDER BY k.ord) FROM k) AS codes FROM s;
 			${trail.sql}`,
 			{
 				type: QueryTypes.SELECT,
@@ -220,14 +224,18 @@ export async function splitItem(sq: Sequelize, who: Who, parentCode: string, inp
 					loss: budget.lossUg, lossU: budget.lossU, reweighed: budget.reweighed, verdict: budget.verdict, reason: reason ?? null, op: who.id, session: input.handlingSessionId ?? null,
 					collection: parent.collection_id, depth: parent.depth + 1, u: balance?.netUUg ?? 0, U: balance?.netExpandedUg ?? 0, min: balance?.minimumWeightUg ?? 0,
 					uAfter: parent.mass_u_ug === null && !balance ? null : uAfter,
-					children: JSON.stringify(children.map((c) => ({ id: c.id, serial: c.serial, code: c.code, description: c.description, mass: c.massUg, u: c.uUg, container: c.container, storage: c.storagePlace }))),
+					n,
+					children: JSON.stringify(children.map((c) => ({ id: c.id, ord: c.ord, description: c.description, mass: c.massUg, u: c.uUg, container: c.container, storage: c.storagePlace }))),
 					weighings: JSON.stringify(weighings),
 					entries: JSON.stringify(entries)
 				}
 			}
 		);
-		if (!rows.some((r) => r.split_written === splitId)) throw new Error(`split ${splitId} was not written`);
+		const written = rows.find((r) => r.split_written === splitId);
+		if (!written) throw new Error(`split ${splitId} was not written`);
 		trailRowOf(rows); // throws unless the trail event was appended
-		return result;
+		const codes = written.codes as string[];
+		if (!Array.isArray(codes) || codes.length !== n) throw new Error(`split ${splitId}: expected ${n} child codes`);
+		return { ...result, children: result.children.map((c, i) => ({ ...c, code: codes[i] })) };
 	});
 }
