@@ -3,9 +3,10 @@
 // the same run, and lineage latency for a parent with 10,000 descendants twelve levels deep.
 // A benchmark prints figures; it asserts nothing. Its stack lives in .regolog/bench (fresh each run).
 import { spawn, spawnSync } from 'node:child_process';
-import { writeFileSync, mkdtempSync, existsSync } from 'node:fs';
-import { tmpdir } from 'node:os';
+import { writeFileSync, mkdtempSync, existsSync, readFileSync } from 'node:fs';
+import { tmpdir, cpus } from 'node:os';
 import { join } from 'node:path';
+import http from 'node:http';
 import pg from 'pg';
 
 process.env.REGOLOG_DATA_DIR ??= '.regolog/bench';
@@ -17,6 +18,15 @@ const CLIENTS = Number(process.env.BENCH_CLIENTS ?? 8);
 const SECONDS = Number(process.env.BENCH_SECONDS ?? 10);
 const CHILD_UG = 1_000;
 const PARENT_UG = 500_000_000;
+/** Time every core of the machine has spent, and spent idle, so far (Linux /proc/stat). */
+function machineCpu() {
+	const v = readFileSync('/proc/stat', 'utf8').split('\n')[0].trim().split(/\s+/).slice(1, 9).map(Number);
+	return { total: v.reduce((a, b) => a + b, 0), idle: v[3] + v[4] };
+}
+const busySince = (a) => {
+	const b = machineCpu();
+	return 100 * (1 - (b.idle - a.idle) / Math.max(1, b.total - a.total));
+};
 const LINEAGE_RUNS = Number(process.env.BENCH_LINEAGE_RUNS ?? 100);
 
 const stack = await startStack('test', { fresh: true });
@@ -63,10 +73,34 @@ try {
 
 	// ── split throughput through the HTTP API: two 1 mg children per split, no reweighing
 	const httpParents = await register('BNH', CLIENTS);
-	const split = (code) => api('POST', `/api/items/${code}/splits`, { children: [{ massUg: CHILD_UG }, { massUg: CHILD_UG }] });
+	// the timed requests go through node:http with kept-alive connections, the lightest client node
+	// has: the benchmark's own clients share the machine's cores with the app and PostgreSQL, as
+	// pgbench's do, and fetch costs several times more CPU per request (see the CPU line printed)
+	const agent = new http.Agent({ keepAlive: true, maxSockets: CLIENTS });
+	const splitBody = JSON.stringify({ children: [{ massUg: CHILD_UG }, { massUg: CHILD_UG }] });
+	const split = (code) =>
+		new Promise((resolve, reject) => {
+			const req = http.request(`${base}/api/items/${code}/splits`, {
+				method: 'POST', agent,
+				headers: { cookie, origin: base, 'content-type': 'application/json', 'content-length': Buffer.byteLength(splitBody) }
+			}, (res) => {
+				const parts = [];
+				res.on('data', (d) => parts.push(d));
+				res.on('end', () => {
+					const body = JSON.parse(Buffer.concat(parts).toString('utf8'));
+					// a split counts only with both children in its answer
+					resolve({ status: res.statusCode === 201 && body.children?.length === 2 ? 201 : res.statusCode, body });
+				});
+				res.on('error', reject);
+			});
+			req.on('error', reject);
+			req.end(splitBody);
+		});
 	for (const code of httpParents) await split(code); // warm-up
 	let httpDone = 0;
 	let httpFailed = 0;
+	const cpu0 = machineCpu();
+	const client0 = process.cpuUsage();
 	const t0 = performance.now();
 	const until = t0 + SECONDS * 1000;
 	await Promise.all(
@@ -79,6 +113,9 @@ try {
 		})
 	);
 	const httpTps = httpDone / ((performance.now() - t0) / 1000);
+	const httpBusy = busySince(cpu0);
+	const clientUsage = process.cpuUsage(client0);
+	const clientMsPerSplit = (clientUsage.user + clientUsage.system) / 1000 / Math.max(1, httpDone + httpFailed);
 
 	// ── pgbench: the same transaction in SQL (lock the parent, split row, serials, two children,
 	// four ledger rows, parent update, trail append under the same advisory lock)
@@ -113,6 +150,7 @@ COMMIT;
 	);
 	const pgbench = join(pgBinDir() ?? '/usr/lib/postgresql/15/bin', 'pgbench');
 	if (!existsSync(pgbench)) throw new Error(`pgbench is missing at ${pgbench}`);
+	const cpu1 = machineCpu();
 	const bench = spawnSync(
 		pgbench,
 		['-n', '-M', 'prepared', '-c', String(CLIENTS), '-j', String(CLIENTS), '-T', String(SECONDS), '-f', script, '-h', '127.0.0.1', '-p', env.REGOLOG_DB_PORT, '-U', env.REGOLOG_DB_USER, env.REGOLOG_DB_NAME],
@@ -122,6 +160,7 @@ COMMIT;
 	if (!tpsMatch) throw new Error(`pgbench gave no figure:\n${bench.stdout}\n${bench.stderr}`);
 	const failedMatch = /number of failed transactions: (\d+)/.exec(bench.stdout);
 	const pgTps = Number(tpsMatch[1]);
+	const pgBusy = busySince(cpu1);
 
 	// ── lineage: one parent with 10,000 descendants on twelve levels
 	const { formatCode } = await import('../src/lib/domain/codes.ts');
@@ -177,6 +216,7 @@ COMMIT;
 	console.log(`  HTTP API, ${CLIENTS} clients on distinct parents, ${SECONDS} s: ${f(httpTps)} splits/s (${httpDone} splits, ${httpFailed} refused)`);
 	console.log(`  pgbench, same transaction, ${CLIENTS} clients, ${SECONDS} s:   ${f(pgTps)} tx/s${failedMatch ? ` (${failedMatch[1]} failed)` : ''}`);
 	console.log(`  ratio HTTP / pgbench: ${f(httpTps / pgTps, 2)}  (target ≥ 0.4)`);
+	console.log(`    all ${cpus().length} cores busy ${f(httpBusy, 0)} % during the HTTP run (this benchmark's own HTTP clients: ${f(clientMsPerSplit, 2)} ms CPU per split), ${f(pgBusy, 0)} % during pgbench`);
 	console.log(`  lineage of a parent with ${whole.size} descendants on ${sizes.length} levels, ${LINEAGE_RUNS} requests: p50 ${f(whole.p50)} ms, p95 ${f(whole.p95)} ms  (target p95 < 50 ms)`);
 	console.log(`    of which answered from memory (nothing changed since the last request): all but the first; computed afresh after a change elsewhere in the collection, ${cold.runs} requests: p50 ${f(cold.p50)} ms, p95 ${f(cold.p95)} ms`);
 	console.log(`  lineage of a leaf ${sizes.length} levels down (${up.size} ancestors): p50 ${f(up.p50)} ms, p95 ${f(up.p95)} ms`);

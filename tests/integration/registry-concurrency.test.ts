@@ -3,8 +3,10 @@ import { signedIn, DEMO, type Client } from '../helpers/http';
 import { newSpecimen } from '../helpers/registry';
 
 let curator: Client;
+let auditor: Client;
 beforeAll(async () => {
 	curator = await signedIn(DEMO.curator);
+	auditor = await signedIn(DEMO.auditor);
 });
 
 async function closes(code: string) {
@@ -49,4 +51,24 @@ describe('concurrent splits through the HTTP API', () => {
 		const serials = list.body.items.map((i: { code: string }) => Number(i.code.split('-')[1]));
 		expect(serials).toEqual(serials.map((_: number, k: number) => serials[0] - k));
 	});
+
+	it('splits and registrations in one collection at once: all succeed, serials gapless, one trail chain', async () => {
+		const parents = await Promise.all(Array.from({ length: 6 }, () => newSpecimen(curator, 50_000)));
+		// registrations take the collection's serials in one statement and append the trail in the next;
+		// a split does both in one statement: the locks must come in the same order, or these deadlock
+		const work = [
+			...parents.flatMap((code) => Array.from({ length: 4 }, () => curator.post(`/api/items/${code}/splits`, { children: [{ massUg: 1_000 }, { massUg: 2_000 }] }))),
+			...Array.from({ length: 20 }, (_, i) => curator.post('/api/items', { collection: 'HLF', massUg: 10_000 + i, description: `registered while splitting ${i}` }))
+		];
+		const answers = await Promise.all(work);
+		expect(answers.map((a) => a.status)).toEqual(answers.map(() => 201));
+		const list = await curator.get('/api/items?collection=HLF&sort=code&dir=desc&limit=68');
+		const serials = list.body.items.map((i: { code: string }) => Number(i.code.split('-')[1]));
+		// the 24 splits' 48 children and the 20 registrations: the newest 68 serials, without a gap
+		expect(serials).toHaveLength(68);
+		expect(serials).toEqual(serials.map((_: number, k: number) => serials[0] - k));
+		const verify = await auditor.get('/api/trail/verify');
+		expect(verify.body).toMatchObject({ ok: true, firstBrokenAt: null });
+	});
 });
+

@@ -5,7 +5,6 @@ import { CopyOutQuery, submitCopyOut, type CopyOutParser } from './copy-out';
 import { QueryTypes, type Sequelize, type Transaction } from 'sequelize';
 
 export const GENESIS_HASH = '0'.repeat(64);
-const TRAIL_LOCK = 0x7261696c; // advisory lock key for appends ("rail")
 
 export interface TrailActor {
 	id: string | null;
@@ -79,31 +78,43 @@ function plain(v: unknown): unknown {
 export interface TrailFill {
 	marks: string[];
 	values: string;
+	/**
+	 * SQL computed before the trail's lock is taken, for a statement that locks rows itself: it must
+	 * name those steps here so that, like every other writer, it takes their locks first.
+	 */
+	after?: string;
 }
 
 /** SQL and replacements that append one event; see appendTrail. */
 export interface TrailStatement {
+	/** the append on its own: one statement, returning trail_seq, trail_prev_hash and trail_hash */
 	sql: string;
+	/** the same as CTEs, to be part of the WITH of a larger statement… */
+	ctes: string;
+	/** …whose CTE of this name returns the event's seq, prev_hash and hash */
+	returned: string;
 	replacements: Record<string, unknown>;
 }
 
 /**
- * The statements that append one event, for appendTrail or for sending in the same round trip as
- * the statement of the change itself (prefixed names keep their replacements apart).
+ * The statement that appends one event, on its own (appendTrail) or as CTEs of the statement of the
+ * change itself, so that the change and its event go in one round trip (prefixed names keep their
+ * CTEs and replacements apart).
  *
- * An advisory transaction lock keeps every writer on one chain: the next writer waits until this
- * transaction ends, and then reads the chain's head afresh. The lock is its own statement, so that
- * the INSERT after it takes its snapshot once it holds the lock (each statement at READ COMMITTED —
- * PostgreSQL's and Sequelize's default — has a snapshot of its own; under REPEATABLE READ or
- * SERIALIZABLE a snapshot taken before the lock could miss the previous writer's event, and the
- * append would fail on the primary key: the chain is never forked, but the change is refused).
+ * trail_head_locked() (migration 0053) takes an advisory transaction lock that keeps every writer on
+ * one chain: the next writer waits there until this transaction ends. Being VOLATILE, it then reads
+ * the chain's head with a snapshot of its own, taken once it holds the lock, so it sees the previous
+ * writer's event even though the statement around it began earlier. (At READ COMMITTED, PostgreSQL's
+ * and Sequelize's default. Under REPEATABLE READ or SERIALIZABLE the transaction's one snapshot
+ * could miss that event, and the append would fail on the primary key: the chain is never forked,
+ * but the change is refused.)
  *
  * The event's canonical JSON (RFC 8785, by canonicalEvent) is made here; only its seq, which is the
  * head's plus one, is filled in by the INSERT. In RFC 8785 member order the event ends with
  * `"seq":N,"subject":{…}}`, so the body is the text before N, N, and the text after it. The hash,
  * SHA-256 over the previous hash and the body as UTF-8 bytes, is then computed by PostgreSQL's
- * sha256() in the same INSERT, so an append is one round trip. verifyTrail checks every hash with
- * node's own SHA-256, and the trail tests check the two agree.
+ * sha256() in the same INSERT. verifyTrail checks every hash with node's own SHA-256, and the trail
+ * tests check the two agree.
  */
 export function trailStatement(input: TrailInput, name = 'trail', fill?: TrailFill): TrailStatement {
 	const row = {
@@ -149,21 +160,24 @@ export function trailStatement(input: TrailInput, name = 'trail', fill?: TrailFi
 		delete values.head;
 		parts.forEach((part, j) => (values[`part${j}`] = part));
 		headSql = parts.map((_, j) => p(`part${j}`)).reduce((sql, part, j) => (j === 0 ? part : `${sql} || f.v[${at[j - 1].i + 1}] || ${part}`), '');
-		lateral = `LATERAL (SELECT CAST(${fill.values} AS text[]) AS v) f,`;
+		lateral = `LATERAL (SELECT CAST(${fill.values} AS text[]) AS v) f`;
 		before = `(b.body::jsonb)->'before'`;
 		after = `(b.body::jsonb)->'after'`;
 	}
-	const sql = `SELECT pg_advisory_xact_lock(${TRAIL_LOCK}) AS trail_locked;
-		INSERT INTO trail_events (seq, at, actor_id, actor_label, action, subject_type, subject_id, before, after, prev_hash, hash, body)
-		SELECT h.seq, ${p('at')}, ${p('actor_id')}, ${p('actor_label')}, ${p('action')}, ${p('subject_type')}, ${p('subject_id')},
-		       ${before}, ${after}, h.prev, encode(sha256(convert_to(h.prev || b.body, 'UTF8')), 'hex'), b.body
-		FROM (SELECT coalesce(max(seq), 0) + 1 AS seq,
-		             coalesce((SELECT hash FROM trail_events ORDER BY seq DESC LIMIT 1), '${GENESIS_HASH}') AS prev FROM trail_events) h, ${lateral}
-		     LATERAL (SELECT ${headSql} || h.seq::text || ${p('tail')} AS body) b
-		RETURNING seq AS trail_seq, prev_hash AS trail_prev_hash, hash AS trail_hash`;
+	const ctes = `${name}_h AS (SELECT seq, prev FROM trail_head_locked(${fill?.after ?? 'NULL'})),
+		${name}_b AS (SELECT ${headSql} || h.seq::text || ${p('tail')} AS body FROM ${name}_h h${lateral ? `, ${lateral}` : ''}),
+		${name}_i AS (
+			INSERT INTO trail_events (seq, at, actor_id, actor_label, action, subject_type, subject_id, before, after, prev_hash, hash, body)
+			SELECT h.seq, CAST(${p('at')} AS timestamptz), CAST(${p('actor_id')} AS uuid), CAST(${p('actor_label')} AS text), CAST(${p('action')} AS text),
+			       CAST(${p('subject_type')} AS text), CAST(${p('subject_id')} AS text),
+			       ${before}, ${after}, h.prev, encode(sha256(convert_to(h.prev || b.body, 'UTF8')), 'hex'), b.body
+			FROM ${name}_h h, ${name}_b b
+			RETURNING seq, prev_hash, hash)`;
+	const sql = `WITH ${ctes}
+		SELECT seq AS trail_seq, prev_hash AS trail_prev_hash, hash AS trail_hash FROM ${name}_i`;
 	const replacements: Record<string, unknown> = {};
 	for (const [k, v] of Object.entries(values)) replacements[`${name}_${k}`] = v;
-	return { sql, replacements };
+	return { sql, ctes, returned: `${name}_i`, replacements };
 }
 
 /** Reads the appended event from the rows of a query that ran a trailStatement. */

@@ -1,9 +1,10 @@
 import { randomUUID } from 'node:crypto';
 import { z } from 'zod';
-import { QueryTypes, type Sequelize } from 'sequelize';
+import type { Sequelize } from 'sequelize';
 import { splitBudget, type LossTolerance, type SplitBudget } from '../../domain/budget';
 import { formatMg } from '../../domain/mass';
 import { ApiProblem } from '../api';
+import { preparedQuery } from '../prepared';
 import { trailRowOf, trailStatement } from '../trail';
 import { checkSplitSession } from '../handling/sessions';
 import { balanceForWeighing, type BalanceView } from './balances';
@@ -181,59 +182,61 @@ export async function splitItem(sq: Sequelize, who: Who, parentCode: string, inp
 			'trail',
 			{
 				marks: children.map((c) => c.mark),
-				// the serials the statement before took: the counter's row is still locked by this transaction
-				values: `(SELECT array_agg(item_code(c.prefix, c.next_serial - ${n} + g) ORDER BY g) FROM collections c, generate_series(0, ${n - 1}) g WHERE c.id = :collection)`
+				values: '(SELECT array_agg(k.code ORDER BY k.ord) FROM k)',
+				// the collection's row is locked first (by the serials), as every writer does
+				after: '(SELECT count(*) FROM k)'
 			}
 		);
-		const rows = await sq.query<Record<string, unknown>>(
+		// the change and its trail event in one statement, prepared (planning it would cost as much as
+		// running it)
+		const [written] = await preparedQuery<{ split_written: string; codes: string[]; trail_seq: string; trail_prev_hash: string; trail_hash: string }>(
+			t,
 			`WITH c AS (
-				UPDATE collections SET next_serial = next_serial + :n WHERE id = :collection RETURNING prefix, next_serial - :n AS first
+				UPDATE collections SET next_serial = next_serial + CAST(:n AS int) WHERE id = CAST(:collection AS uuid) RETURNING prefix, next_serial - CAST(:n AS int) AS first
 			), k AS (
 				SELECT x.*, c.first + x.ord AS serial, item_code(c.prefix, c.first + x.ord) AS code
 				FROM c, jsonb_to_recordset(CAST(:children AS jsonb)) AS x(id uuid, ord int, description text, mass bigint, u double precision, container text, storage text)
 			), base AS (
-				SELECT coalesce(max(seq), 0) AS seq FROM ledger_entries WHERE item_id = :parent
+				SELECT coalesce(max(seq), 0) AS seq FROM ledger_entries WHERE item_id = CAST(:parent AS uuid)
 			), s AS (
 				INSERT INTO splits (id, at, parent_id, balance_id, parent_before_ug, parent_after_ug, children_total_ug, loss_ug, loss_u_ug, reweighed, verdict, reason, operator_id, handling_session_id)
 				VALUES (:split, :at, :parent, :balance, :p0, :p1, :total, :loss, :lossU, :reweighed, :verdict, :reason, :op, :session) RETURNING id
 			), i AS (
 				INSERT INTO items (id, collection_id, serial, code, parent_id, depth, kind, description, initial_mass_ug, mass_ug, mass_u_ug,
 				                   holder_lab_id, container, storage_place, split_id, created_by)
-				SELECT k.id, :collection, k.serial, k.code, :parent, :depth, 'aliquot', k.description, k.mass, k.mass, k.u, NULL, k.container, k.storage, :split, :op FROM k
+				SELECT k.id, CAST(:collection AS uuid), k.serial, k.code, CAST(:parent AS uuid), CAST(:depth AS int), 'aliquot', k.description, k.mass, k.mass, k.u, NULL, k.container, k.storage,
+				       CAST(:split AS uuid), CAST(:op AS uuid) FROM k
 			), w AS (
 				INSERT INTO weighings (id, item_id, balance_id, purpose, gross_ug, tare_ug, net_ug, u_ug, expanded_ug, minimum_weight_ug, below_minimum, reason, split_id, operator_id)
-				SELECT x.id, x.item, :balance, x.purpose, x.gross, x.tare, x.net, :u, :U, :min, x.below, x.reason, :split, :op
+				SELECT x.id, x.item, CAST(:balance AS uuid), x.purpose, x.gross, x.tare, x.net, CAST(:u AS double precision), CAST(:U AS double precision), CAST(:min AS bigint),
+				       x.below, x.reason, CAST(:split AS uuid), CAST(:op AS uuid)
 				FROM jsonb_to_recordset(CAST(:weighings AS jsonb)) AS x(id uuid, item uuid, purpose text, gross bigint, tare bigint, net bigint, below boolean, reason text)
 			), l AS (
 				INSERT INTO ledger_entries (item_id, seq, kind, delta_ug, balance_after_ug, u_after_ug, split_id, weighing_id, counterpart_id, note, actor_id)
-				SELECT x.item, x.seq + CASE WHEN x.own THEN base.seq ELSE 0 END, x.kind, x.delta, x.after, x.u, :split, x.weighing, x.counterpart,
-				       CASE WHEN x.child IS NULL THEN x.note ELSE 'to ' || (SELECT k.code FROM k WHERE k.ord = x.child) END, :op
+				SELECT x.item, x.seq + CASE WHEN x.own THEN base.seq ELSE 0 END, x.kind, x.delta, x.after, x.u, CAST(:split AS uuid), x.weighing, x.counterpart,
+				       CASE WHEN x.child IS NULL THEN x.note ELSE 'to ' || (SELECT k.code FROM k WHERE k.ord = x.child) END, CAST(:op AS uuid)
 				FROM base, jsonb_to_recordset(CAST(:entries AS jsonb)) AS x(item uuid, own boolean, seq int, kind text, delta bigint, after bigint, u double precision, weighing uuid, counterpart uuid, child int, note text)
 			), p AS (
 				UPDATE items SET mass_ug = :p1, mass_u_ug = :uAfter, updated_at = now() WHERE id = :parent
-			)
-			SELECT s.id AS split_written, (SELECT json_agg(k.code ORDER BY k.ord) FROM k) AS codes FROM s;
-			${trail.sql}`,
+			), ${trail.ctes}
+			SELECT s.id AS split_written, (SELECT json_agg(k.code ORDER BY k.ord) FROM k) AS codes,
+			       t.seq AS trail_seq, t.prev_hash AS trail_prev_hash, t.hash AS trail_hash
+			FROM s, ${trail.returned} t`,
 			{
-				type: QueryTypes.SELECT,
-				transaction: t,
-				replacements: {
-					...trail.replacements,
-					at,
-					split: splitId, parent: parent.id, balance: balance?.id ?? null, p0: parent.mass_ug, p1: budget.parentAfterUg, total: budget.childrenTotalUg,
-					loss: budget.lossUg, lossU: budget.lossU, reweighed: budget.reweighed, verdict: budget.verdict, reason: reason ?? null, op: who.id, session: input.handlingSessionId ?? null,
-					collection: parent.collection_id, depth: parent.depth + 1, u: balance?.netUUg ?? 0, U: balance?.netExpandedUg ?? 0, min: balance?.minimumWeightUg ?? 0,
-					uAfter: parent.mass_u_ug === null && !balance ? null : uAfter,
-					n,
-					children: JSON.stringify(children.map((c) => ({ id: c.id, ord: c.ord, description: c.description, mass: c.massUg, u: c.uUg, container: c.container, storage: c.storagePlace }))),
-					weighings: JSON.stringify(weighings),
-					entries: JSON.stringify(entries)
-				}
+				...trail.replacements,
+				at,
+				split: splitId, parent: parent.id, balance: balance?.id ?? null, p0: parent.mass_ug, p1: budget.parentAfterUg, total: budget.childrenTotalUg,
+				loss: budget.lossUg, lossU: budget.lossU, reweighed: budget.reweighed, verdict: budget.verdict, reason: reason ?? null, op: who.id, session: input.handlingSessionId ?? null,
+				collection: parent.collection_id, depth: parent.depth + 1, u: balance?.netUUg ?? 0, U: balance?.netExpandedUg ?? 0, min: balance?.minimumWeightUg ?? 0,
+				uAfter: parent.mass_u_ug === null && !balance ? null : uAfter,
+				n,
+				children: JSON.stringify(children.map((c) => ({ id: c.id, ord: c.ord, description: c.description, mass: c.massUg, u: c.uUg, container: c.container, storage: c.storagePlace }))),
+				weighings: JSON.stringify(weighings),
+				entries: JSON.stringify(entries)
 			}
 		);
-		const written = rows.find((r) => r.split_written === splitId);
-		if (!written) throw new Error(`split ${splitId} was not written`);
-		trailRowOf(rows); // throws unless the trail event was appended
+		if (written?.split_written !== splitId) throw new Error(`split ${splitId} was not written`);
+		trailRowOf([written]); // throws unless the trail event was appended
 		const codes = written.codes as string[];
 		if (!Array.isArray(codes) || codes.length !== n) throw new Error(`split ${splitId}: expected ${n} child codes`);
 		return { ...result, children: result.children.map((c, i) => ({ ...c, code: codes[i] })) };
