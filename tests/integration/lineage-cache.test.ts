@@ -47,8 +47,8 @@ describe('lineage answers kept in memory', () => {
 		expect(entry(changed, b)).toMatchObject({ state: 'earmarked' });
 		expect(changed.queries).toBe(first.queries);
 
-		// a lab's new name shows as the holder
-		const lab = `Lineage Cache Lab ${Date.now()}`;
+		// a lab's new name shows as the holder, exactly, whatever characters JSON must escape in it
+		const lab = `Lineage "Cache" Lab \\ ${Date.now()}\t– Łódź`;
 		await asSuperuser(DB, async (c) => {
 			const { rows: [l] } = await c.query(`INSERT INTO labs (name, short_name) VALUES ($1, $2) RETURNING id`, [lab, `LCL${Date.now() % 1e6}`]);
 			await c.query(`UPDATE items SET holder_lab_id = $1, state = 'on_loan' WHERE code = $2`, [l.id, b]);

@@ -8,10 +8,10 @@ import { findItem, type ItemRow, type Who } from './common';
  * is served again without the recursive query. Least recently used first out, within a byte budget.
  */
 const CACHE_BYTES = Number(process.env.REGOLOG_LINEAGE_CACHE_MB ?? 64) * 1024 * 1024;
-const cache = new Map<string, { version: number; body: string }>();
+const cache = new Map<string, { version: number; body: Buffer }>();
 let cachedBytes = 0;
 
-function remember(key: string, version: number, body: string): void {
+function remember(key: string, version: number, body: Buffer): void {
 	const old = cache.get(key);
 	if (old) {
 		cache.delete(key);
@@ -29,7 +29,7 @@ function remember(key: string, version: number, body: string): void {
 
 /**
  * Ancestors (root first) and descendants (by level) of an item through one recursive query,
- * with the answer's JSON built by PostgreSQL (a tree of 10,000 items stays one round trip and
+ * with the answer's JSON text built by PostgreSQL (a tree of 10,000 items stays one round trip and
  * one string). `depth` limits the descendant levels (a tree opened one level at a time); every
  * entry carries its number of children so the tree knows what can be opened. Lab members see
  * only the entries their lab holds; the rest are counted as withheld. An answer computed at the
@@ -37,6 +37,11 @@ function remember(key: string, version: number, body: string): void {
  * version in its own snapshot, so what is kept is exactly what that version means.
  */
 export async function lineageJson(sq: Sequelize, who: Who, codeText: string, depth: number | null = null): Promise<string> {
+	return (await lineageBytes(sq, who, codeText, depth)).toString('utf8');
+}
+
+/** lineageJson's answer as the UTF-8 bytes sent: what is kept, so a repeat answer is not encoded again. */
+export async function lineageBytes(sq: Sequelize, who: Who, codeText: string, depth: number | null = null): Promise<Buffer> {
 	const item = await findItem(sq, who, codeText);
 	const lab = labFilter(who);
 	const key = `${item.id}/${depth ?? ''}/${lab ?? ''}`;
@@ -70,23 +75,27 @@ export async function lineageJson(sq: Sequelize, who: Who, codeText: string, dep
 			       CASE WHEN d.level = :depth::int THEN (SELECT count(*) FROM items k WHERE k.parent_id = d.id) ELSE coalesce(kids.n, 0) END
 			FROM down d LEFT JOIN kids ON kids.parent_code = d.code WHERE d.level > 0
 		), rows AS (
+			-- each entry's JSON text put together here: json_build_object costs several times more per
+			-- object. Text goes through to_json (escaped as JSON wants); kind and state are the
+			-- items table's CHECKed words, and the numbers are integers
 			SELECT t.side, t.level, t.serial, t.holder_lab_id,
-			       json_build_object('code', t.code, 'parentCode', t.parent_code, 'level', t.level, 'kind', t.kind, 'state', t.state,
-			                         'massUg', t.mass_ug, 'initialMassUg', t.initial_mass_ug, 'holder', coalesce(l.name, 'Facility'), 'children', t.children) AS entry
+			       '{"code":' || to_json(t.code)::text || ',"parentCode":' || coalesce(to_json(t.parent_code)::text, 'null') ||
+			       ',"level":' || t.level || ',"kind":"' || t.kind || '","state":"' || t.state || '","massUg":' || t.mass_ug ||
+			       ',"initialMassUg":' || t.initial_mass_ug || ',"holder":' || CASE WHEN l.name IS NULL THEN '"Facility"' ELSE to_json(l.name)::text END ||
+			       ',"children":' || t.children || '}' AS entry
 			FROM tree t LEFT JOIN labs l ON l.id = t.holder_lab_id
 		)
-		SELECT json_build_object(
-			'code', CAST(:code AS text),
-			'ancestors', coalesce((SELECT json_agg(entry ORDER BY level) FROM rows WHERE side = 'a' AND (:lab::uuid IS NULL OR holder_lab_id = :lab::uuid)), '[]'),
-			'descendants', coalesce((SELECT json_agg(entry ORDER BY level, serial) FROM rows WHERE side = 'd' AND (:lab::uuid IS NULL OR holder_lab_id = :lab::uuid)), '[]'),
-			'withheld', (SELECT count(*) FROM rows WHERE :lab::uuid IS NOT NULL AND holder_lab_id IS DISTINCT FROM :lab::uuid),
-			'depth', :depth::int
-		)::text AS body,
+		SELECT '{"code":' || to_json(CAST(:code AS text))::text ||
+			',"ancestors":[' || coalesce((SELECT string_agg(entry, ',' ORDER BY level) FROM rows WHERE side = 'a' AND (:lab::uuid IS NULL OR holder_lab_id = :lab::uuid)), '') ||
+			'],"descendants":[' || coalesce((SELECT string_agg(entry, ',' ORDER BY level, serial) FROM rows WHERE side = 'd' AND (:lab::uuid IS NULL OR holder_lab_id = :lab::uuid)), '') ||
+			'],"withheld":' || (SELECT count(*) FROM rows WHERE :lab::uuid IS NOT NULL AND holder_lab_id IS DISTINCT FROM :lab::uuid) ||
+			',"depth":' || coalesce(CAST(:depth AS int)::text, 'null') || '}' AS body,
 		(SELECT lineage_version FROM collections WHERE id = :collection) AS version`,
 		{ type: QueryTypes.SELECT, replacements: { id: item.id, code: item.code, depth, lab, collection: item.collection_id } }
 	);
-	remember(key, Number(row.version), row.body);
-	return row.body;
+	const body = Buffer.from(row.body, 'utf8');
+	remember(key, Number(row.version), body);
+	return body;
 }
 
 interface LedgerRow {

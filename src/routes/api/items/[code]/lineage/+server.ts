@@ -2,7 +2,7 @@ import { z } from 'zod';
 import { endpoint, readQuery } from '$lib/server/api';
 import { models } from '$lib/server/models';
 import { whoFrom } from '$lib/server/registry/common';
-import { lineageJson } from '$lib/server/registry/lineage';
+import { lineageBytes } from '$lib/server/registry/lineage';
 import type { RequestHandler } from './$types';
 
 const query = z.strictObject({
@@ -11,6 +11,7 @@ const query = z.strictObject({
 
 export const GET: RequestHandler = endpoint(async ({ params, url, locals }) => {
 	const { depth } = readQuery(url, query);
-	const body = await lineageJson(models(), whoFrom(locals.user!), params.code, depth ?? null);
-	return new Response(body, { headers: { 'content-type': 'application/json' } });
+	const body = await lineageBytes(models(), whoFrom(locals.user!), params.code, depth ?? null);
+	// the kept bytes themselves, not a copy (a Buffer is a Uint8Array over an ArrayBuffer)
+	return new Response(body as Uint8Array<ArrayBuffer>, { headers: { 'content-type': 'application/json', 'content-length': String(body.byteLength) } });
 });
