@@ -120,7 +120,7 @@ try {
 	const clientMsPerSplit = (clientUsage.user + clientUsage.system) / 1000 / Math.max(1, httpDone + httpFailed);
 
 	// ── pgbench: the same transaction in SQL (lock the parent, split row, serials, two children,
-	// four ledger rows, parent update, trail append under the same advisory lock)
+	// four ledger rows, parent update, trail append through the same trail_head_locked())
 	const pgParents = await register('BNP', CLIENTS);
 	await db.query('CREATE TABLE bench_parents (n int PRIMARY KEY, id uuid NOT NULL)');
 	for (const [n, code] of pgParents.entries()) await db.query('INSERT INTO bench_parents SELECT $1, id FROM items WHERE code = $2', [n, code]);
@@ -142,11 +142,9 @@ INSERT INTO ledger_entries (item_id, seq, kind, delta_ug, balance_after_ug, spli
   (CAST(:c1 AS uuid), 1, 'split_in', ${CHILD_UG}, ${CHILD_UG}, CAST(:sid AS uuid), CAST(:pid AS uuid), ''),
   (CAST(:c2 AS uuid), 1, 'split_in', ${CHILD_UG}, ${CHILD_UG}, CAST(:sid AS uuid), CAST(:pid AS uuid), '');
 UPDATE items SET mass_ug = CAST(:m AS bigint) - ${2 * CHILD_UG}, updated_at = now() WHERE id = CAST(:pid AS uuid);
-SELECT pg_advisory_xact_lock(${0x7261696c});
 INSERT INTO trail_events (seq, at, actor_label, action, subject_type, subject_id, before, after, prev_hash, hash)
-  SELECT coalesce(max(seq), 0) + 1, now(), 'pgbench', 'item.split', 'item', CAST(:pid AS text), '{}', '{}',
-         coalesce((SELECT hash FROM trail_events ORDER BY seq DESC LIMIT 1), repeat('0', 64)), encode(sha256(convert_to(gen_random_uuid()::text, 'UTF8')), 'hex')
-  FROM trail_events;
+  SELECT h.seq, now(), 'pgbench', 'item.split', 'item', CAST(:pid AS text), '{}', '{}', h.prev, encode(sha256(convert_to(h.prev || gen_random_uuid()::text, 'UTF8')), 'hex')
+  FROM trail_head_locked(NULL) h;
 COMMIT;
 `
 	);
