@@ -262,9 +262,10 @@ const AT_ISO = `to_char(at AT TIME ZONE 'UTC', 'YYYY-MM-DD"T"HH24:MI:SS.MS"Z"')`
 
 /**
  * The verification stream, one tuple per event, in PostgreSQL's binary COPY format: 0 seq; 1 hash;
- * 2 whether the columns still say what the body says; 3 prev_hash; 4 body; 5 NULL, except for an
- * event written before bodies were stored (body NULL) or whose prev_hash is not 64 characters long,
- * which gets its prev_hash and columns as one JSON array for canonicalRawRow. `matches` is the
+ * 2 whether the columns still say what the body says; 3 prev_hash || body, the exact bytes the hash
+ * covers, in one field (joined by PostgreSQL, which has a core to spare while node checks); 4 NULL,
+ * except for an event written before bodies were stored (body NULL) or whose prev_hash is not 64
+ * characters long, which gets its prev_hash and columns as one JSON array for canonicalRawRow. `matches` is the
  * stored generated column body_matches (migration 0031), which the database recomputes on every
  * write of the row; when its definition is not intact the same comparison is made in this query
  * instead, row by row (slower, same findings).
