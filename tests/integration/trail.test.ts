@@ -21,6 +21,24 @@ import {
 import { CopyOutParser, CopyOutQuery, submitCopyOut } from '../../src/lib/server/copy-out';
 import { asSuperuser, scratchDatabase } from '../helpers/scratch-db';
 
+/** Runs SQL (with parameters) as the superuser in `database`, with the trail's triggers off for that session only. */
+const tamperIn = (database: string, sql: string, params: unknown[] = []) =>
+	asSuperuser(database, async (c) => {
+		await c.query('SET session_replication_role = replica');
+		await c.query(sql, params);
+	});
+
+/** A test of its own on an empty, migrated database, dropped afterwards. */
+async function withTrailDb(tag: string, test: (s: Awaited<ReturnType<typeof scratchDatabase>>) => Promise<void>): Promise<void> {
+	const s = await scratchDatabase(tag);
+	try {
+		await migrateUp(s.sequelize);
+		await test(s);
+	} finally {
+		await s.drop();
+	}
+}
+
 /** JSON that jsonb can store: no NUL, no lone surrogate. */
 const storable = (v: unknown) => !/\\u0000|\\ud[89a-f]/i.test(JSON.stringify(v));
 
@@ -183,13 +201,7 @@ describe('the trail in the database', () => {
 	async function append(list: TrailInput[], sequelize: Sequelize = scratch.sequelize) {
 		for (const e of list) await sequelize.transaction((t) => appendTrail(sequelize, t, e));
 	}
-	const superuser = <T>(fn: (c: pg.Client) => Promise<T>) => asSuperuser(scratch.name, fn);
-	/** Runs SQL as the superuser with the trail's triggers off for that session only. */
-	const tamper = (sql: string) =>
-		superuser(async (c) => {
-			await c.query('SET session_replication_role = replica');
-			await c.query(sql);
-		});
+	const tamper = (sql: string) => tamperIn(scratch.name, sql);
 
 	beforeAll(async () => {
 		scratch = await scratchDatabase('trail');
@@ -206,9 +218,7 @@ describe('the trail in the database', () => {
 	});
 
 	it('stores as body and hash exactly what node computes: canonicalEvent and SHA-256 over prev + body', async () => {
-		const s8 = await scratchDatabase('trail_sqlhash');
-		try {
-			await migrateUp(s8.sequelize);
+		await withTrailDb('trail_sqlhash', async (s8) => {
 			const value = fc.jsonValue({ maxDepth: 3 }).filter(storable);
 			const text = fc.string({ unit: 'binary', maxLength: 30 }).filter(storable);
 			let n = 0;
@@ -226,15 +236,11 @@ describe('the trail in the database', () => {
 				{ numRuns: 60 }
 			);
 			expect(await verifyTrail(s8.sequelize)).toEqual({ ok: true, events: n, firstBrokenAt: null });
-		} finally {
-			await s8.drop();
-		}
+		});
 	});
 
 	it('fills in values the database gives where their marks stand, in the body, the hash and the columns', async () => {
-		const s9 = await scratchDatabase('trail_fill');
-		try {
-			await migrateUp(s9.sequelize);
+		await withTrailDb('trail_fill', async (s9) => {
 			const text = fc.string({ unit: 'binary', maxLength: 30 }).filter(storable);
 			const codes = fc.array(fc.stringMatching(/^[A-Z]{2,5}-[0-9]{5,9}-[0-9A-Z]$/), { minLength: 1, maxLength: 6 });
 			let n = 0;
@@ -266,9 +272,7 @@ describe('the trail in the database', () => {
 			expect(() => trailStatement(input, 'trail', { marks: ['@m@'], values: "ARRAY['A']" })).toThrow(/exactly once/);
 			expect(() => trailStatement(input, 'trail', { marks: ['@z@'], values: "ARRAY['A']" })).toThrow(/exactly once/);
 			expect(() => trailStatement(input, 'trail', { marks: ['@k@'], values: "ARRAY['A']" })).not.toThrow();
-		} finally {
-			await s9.drop();
-		}
+		});
 	});
 
 	it('verifies the same however many ranges are read at once', async () => {
@@ -369,41 +373,28 @@ describe('the trail in the database', () => {
 	});
 
 	it('finds a rewritten event whose own hash was recomputed, at the next link', async () => {
-		const s2 = await scratchDatabase('trail_rehash');
-		try {
-			await migrateUp(s2.sequelize);
+		await withTrailDb('trail_rehash', async (s2) => {
 			await append(events(6), s2.sequelize);
 			const [rows] = (await s2.sequelize.query('SELECT * FROM trail_events WHERE seq = 4')) as [any[], unknown];
 			const row = { ...rows[0], after: { massUg: 1 } };
 			const hash = chainHash(row.prev_hash, canonicalEvent(row));
-			await asSuperuser(s2.name, async (c) => {
-				await c.query('SET session_replication_role = replica');
-				// a thorough rewrite: the stored body too, so that event 4 agrees with itself
-				await c.query(`UPDATE trail_events SET after = '{"massUg": 1}', body = $2, hash = $1 WHERE seq = 4`, [hash, canonicalEvent(row)]);
-			});
+			// a thorough rewrite: the stored body too, so that event 4 agrees with itself
+			await tamperIn(s2.name, `UPDATE trail_events SET after = '{"massUg": 1}', body = $2, hash = $1 WHERE seq = 4`, [hash, canonicalEvent(row)]);
 			// event 4 is consistent with itself; the chain breaks where event 5 still points to the old hash
 			expect(await verifyTrail(s2.sequelize)).toMatchObject({ ok: false, events: 4, firstBrokenAt: 5, reason: 'link to the previous event does not match' });
 			// the same where the break falls between two ranges read at once (1 | 2–3 | 4 | 5–6)
 			for (const ranges of [2, 4, 6]) {
 				expect(await verifyTrail(s2.sequelize, { ranges })).toMatchObject({ ok: false, events: 4, firstBrokenAt: 5, reason: 'link to the previous event does not match' });
 			}
-		} finally {
-			await s2.drop();
-		}
+		});
 	});
 
 	it('finds a changed body, and a column changed without its body, at that event', async () => {
-		const s5 = await scratchDatabase('trail_body');
-		try {
-			await migrateUp(s5.sequelize);
+		await withTrailDb('trail_body', async (s5) => {
 			await append(events(8), s5.sequelize);
 			const [[r]] = (await s5.sequelize.query('SELECT body, body_matches FROM trail_events WHERE seq = 3')) as [any[], unknown];
 			expect(r.body_matches).toBe(true);
-			const edit = (sql: string) =>
-				asSuperuser(s5.name, async (c) => {
-					await c.query('SET session_replication_role = replica');
-					await c.query(sql);
-				});
+			const edit = (sql: string) => tamperIn(s5.name, sql);
 			await edit(`UPDATE trail_events SET subject_id = 'TRN-9999' WHERE seq = 6`);
 			expect(await verifyTrail(s5.sequelize)).toMatchObject({ ok: false, events: 5, firstBrokenAt: 6, reason: 'content does not match its hash' });
 			await edit(`UPDATE trail_events SET body = replace(body, '"massUg":1001', '"massUg":1') WHERE seq = 2`);
@@ -411,15 +402,11 @@ describe('the trail in the database', () => {
 			// with the generated column's definition gone, the same comparison is made row by row
 			await asSuperuser(s5.name, (c) => c.query('ALTER TABLE trail_events ALTER COLUMN body_matches DROP EXPRESSION'));
 			expect(await verifyTrail(s5.sequelize)).toMatchObject({ ok: false, firstBrokenAt: 2 });
-		} finally {
-			await s5.drop();
-		}
+		});
 	});
 
 	it('verifies events written before bodies were stored from their columns', async () => {
-		const s6 = await scratchDatabase('trail_old');
-		try {
-			await migrateUp(s6.sequelize);
+		await withTrailDb('trail_old', async (s6) => {
 			await append(events(3), s6.sequelize);
 			// an event as it was written before migration 0031: no body
 			const row = { seq: 4, at: new Date('2031-02-01T12:00:00.250Z'), actor_id: null, actor_label: 'system', action: 'item.weighed', subject_type: 'item', subject_id: 'TRN-0004', before: null, after: { massUg: 5 } };
@@ -432,55 +419,33 @@ describe('the trail in the database', () => {
 			await append(events(2, 'after'), s6.sequelize);
 			expect(await verifyTrail(s6.sequelize)).toEqual({ ok: true, events: 6, firstBrokenAt: null });
 			expect(await verifyTrail(s6.sequelize, { ranges: 3 })).toEqual({ ok: true, events: 6, firstBrokenAt: null });
-			await asSuperuser(s6.name, async (c) => {
-				await c.query('SET session_replication_role = replica');
-				await c.query(`UPDATE trail_events SET after = '{"massUg": 6}' WHERE seq = 4`);
-			});
+			await tamperIn(s6.name, `UPDATE trail_events SET after = '{"massUg": 6}' WHERE seq = 4`);
 			expect(await verifyTrail(s6.sequelize)).toMatchObject({ ok: false, events: 3, firstBrokenAt: 4, reason: 'content does not match its hash' });
-		} finally {
-			await s6.drop();
-		}
+		});
 	});
 
 	it('verifies a chain whose rows are not stored in seq order', async () => {
-		const s7 = await scratchDatabase('trail_order');
-		try {
-			await migrateUp(s7.sequelize);
+		await withTrailDb('trail_order', async (s7) => {
 			await append(events(6), s7.sequelize);
 			// an UPDATE that changes nothing still writes a new row version at the end of the table
-			await asSuperuser(s7.name, async (c) => {
-				await c.query('SET session_replication_role = replica');
-				await c.query('UPDATE trail_events SET seq = seq WHERE seq IN (2, 4)');
-			});
+			await tamperIn(s7.name, 'UPDATE trail_events SET seq = seq WHERE seq IN (2, 4)');
 			const [physical] = (await s7.sequelize.query('SELECT seq::int AS seq FROM trail_events')) as [{ seq: number }[], unknown];
 			expect(physical.map((r) => r.seq)).toEqual([1, 3, 5, 6, 2, 4]);
 			expect(await verifyTrail(s7.sequelize)).toEqual({ ok: true, events: 6, firstBrokenAt: null });
-			await asSuperuser(s7.name, async (c) => {
-				await c.query('SET session_replication_role = replica');
-				await c.query('DELETE FROM trail_events WHERE seq = 5');
-			});
+			await tamperIn(s7.name, 'DELETE FROM trail_events WHERE seq = 5');
 			expect(await verifyTrail(s7.sequelize)).toMatchObject({ ok: false, events: 4, firstBrokenAt: 5, reason: 'event 5 is missing' });
-		} finally {
-			await s7.drop();
-		}
+		});
 	});
 
 	it('finds a deleted event', async () => {
-		const s3 = await scratchDatabase('trail_gap');
-		try {
-			await migrateUp(s3.sequelize);
+		await withTrailDb('trail_gap', async (s3) => {
 			await append(events(5), s3.sequelize);
-			await asSuperuser(s3.name, async (c) => {
-				await c.query('SET session_replication_role = replica');
-				await c.query('DELETE FROM trail_events WHERE seq = 3');
-			});
+			await tamperIn(s3.name, 'DELETE FROM trail_events WHERE seq = 3');
 			expect(await verifyTrail(s3.sequelize)).toMatchObject({ ok: false, events: 2, firstBrokenAt: 3, reason: 'event 3 is missing' });
 			for (const ranges of [2, 3, 5]) {
 				expect(await verifyTrail(s3.sequelize, { ranges })).toMatchObject({ ok: false, events: 2, firstBrokenAt: 3, reason: 'event 3 is missing' });
 			}
-		} finally {
-			await s3.drop();
-		}
+		});
 	});
 
 	it('keeps one chain under 200 concurrent writers', async () => {
