@@ -1,6 +1,6 @@
 import { createHash } from 'node:crypto';
 import type pg from 'pg';
-import type { Transaction } from 'sequelize';
+import type { Sequelize, Transaction } from 'sequelize';
 import { countQueries, queryCount } from './db';
 
 /**
@@ -37,22 +37,45 @@ function compile(sql: string): Compiled {
 	return c;
 }
 
-/** Runs one statement as a prepared statement inside the transaction; the rows it returns. */
-export async function preparedQuery<T extends object>(t: Transaction, sql: string, values: Record<string, unknown>): Promise<T[]> {
+async function run<T extends object>(connection: pg.ClientBase, sql: string, values: Record<string, unknown>): Promise<T[]> {
 	const c = compile(sql);
 	const args = c.params.map((p) => {
 		if (!(p in values)) throw new Error(`prepared statement: no value for :${p}`);
 		const v = values[p];
 		return v === undefined ? null : v;
 	});
-	const connection = (t as unknown as { connection?: pg.ClientBase }).connection;
-	if (!connection) throw new Error('prepared statement: the transaction has no connection yet');
 	if (countQueries) {
 		const n = queryCount.getStore();
 		if (n) n.n++;
 	}
 	const r = await connection.query<T>({ name: c.name, text: c.text, values: args });
 	return r.rows;
+}
+
+/** Runs one statement as a prepared statement inside the transaction; the rows it returns. */
+export async function preparedQuery<T extends object>(t: Transaction, sql: string, values: Record<string, unknown>): Promise<T[]> {
+	const connection = (t as unknown as { connection?: pg.ClientBase }).connection;
+	if (!connection) throw new Error('prepared statement: the transaction has no connection yet');
+	return run<T>(connection, sql, values);
+}
+
+interface Pool {
+	getConnection(options: { type: 'read' | 'write' }): Promise<pg.ClientBase>;
+	releaseConnection(connection: pg.ClientBase): Promise<void> | void;
+}
+
+/**
+ * Runs one read-only statement, outside any transaction, as a prepared statement on a connection
+ * of Sequelize's pool (one statement: one snapshot); the rows it returns.
+ */
+export async function preparedRead<T extends object>(sq: Sequelize, sql: string, values: Record<string, unknown>): Promise<T[]> {
+	const pool = (sq as unknown as { connectionManager: Pool }).connectionManager;
+	const connection = await pool.getConnection({ type: 'read' });
+	try {
+		return await run<T>(connection, sql, values);
+	} finally {
+		await pool.releaseConnection(connection);
+	}
 }
 
 /** For tests: the text and parameter order a statement is prepared with. */

@@ -1,6 +1,7 @@
 import { QueryTypes, type Sequelize } from 'sequelize';
 import { labFilter } from '../auth/scope';
 import { findItem, type ItemRow, type Who } from './common';
+import { preparedRead } from '../prepared';
 
 /**
  * Lineages already computed, by item, depth and lab, with the collection's lineage_version they
@@ -28,6 +29,59 @@ function remember(key: string, version: number, body: Buffer): void {
 }
 
 /**
+ * The lineage's one recursive query. Ancestors come up the parent links one row per step (there are
+ * few). Descendants come down one level per step (`lv`): the next level is one range of
+ * items_tree_level_idx (same tree, depth + 1, migration 0054) joined by hash with the level above,
+ * and the range one further down counted by parent gives each entry its number of children. Each
+ * step also writes its entries' JSON text, in serial order, so the answer is the levels' texts
+ * joined. Lab members see only the entries their lab holds; the rest are counted as withheld.
+ * The text is put together by hand (json_build_object costs several times more per object): text
+ * that may need escaping goes through to_json; codes are letters, digits and hyphens (a CHECK of
+ * migration 0054), kind and state are the items table's CHECKed words, and the numbers are integers.
+ */
+const LINEAGE_SQL = `WITH RECURSIVE up AS (
+		SELECT id, parent_id, code, serial, kind, state, mass_ug, initial_mass_ug, holder_lab_id, 0 AS level FROM items WHERE id = :id
+		UNION ALL
+		SELECT p.id, p.parent_id, p.code, p.serial, p.kind, p.state, p.mass_ug, p.initial_mass_ug, p.holder_lab_id, up.level - 1
+		FROM items p JOIN up ON p.id = up.parent_id
+	), lab AS (
+		SELECT id, to_json(name)::text AS name FROM labs
+	), anc AS (
+		SELECT u.level, u.holder_lab_id,
+		       '{"code":"' || u.code || '","parentCode":' || coalesce('"' || pa.code || '"', 'null') || ',"level":' || u.level ||
+		       ',"kind":"' || u.kind || '","state":"' || u.state || '","massUg":' || u.mass_ug || ',"initialMassUg":' || u.initial_mass_ug ||
+		       ',"holder":' || coalesce(l.name, '"Facility"') || ',"children":' || (SELECT count(*) FROM items k WHERE k.parent_id = u.id) || '}' AS entry
+		FROM up u LEFT JOIN items pa ON pa.id = u.parent_id LEFT JOIN lab l ON l.id = u.holder_lab_id
+		WHERE u.level < 0
+	), lv AS (
+		SELECT 0 AS level, i.depth, i.root_id, ARRAY[i.id] AS ids, ARRAY[i.code] AS codes, NULL::text AS entries, 0::bigint AS withheld
+		FROM items i WHERE i.id = :id
+		UNION ALL
+		SELECT lv.level + 1, lv.depth + 1, lv.root_id, n.ids, n.codes, n.entries, n.withheld
+		FROM lv, LATERAL (
+			SELECT array_agg(c.id) AS ids, array_agg(c.code) AS codes,
+			       string_agg('{"code":"' || c.code || '","parentCode":"' || p.code || '","level":' || (lv.level + 1) ||
+			                  ',"kind":"' || c.kind || '","state":"' || c.state || '","massUg":' || c.mass_ug || ',"initialMassUg":' || c.initial_mass_ug ||
+			                  ',"holder":' || coalesce(l.name, '"Facility"') || ',"children":' || coalesce(k.n, 0) || '}', ',' ORDER BY c.serial)
+			              FILTER (WHERE CAST(:lab AS uuid) IS NULL OR c.holder_lab_id = CAST(:lab AS uuid)) AS entries,
+			       count(*) FILTER (WHERE CAST(:lab AS uuid) IS NOT NULL AND c.holder_lab_id IS DISTINCT FROM CAST(:lab AS uuid)) AS withheld
+			FROM items c
+			JOIN unnest(lv.ids, lv.codes) AS p (id, code) ON c.parent_id = p.id
+			LEFT JOIN (SELECT g.parent_id, count(*) AS n FROM items g WHERE g.root_id = lv.root_id AND g.depth = lv.depth + 2 GROUP BY g.parent_id) k
+			       ON k.parent_id = c.id
+			LEFT JOIN lab l ON l.id = c.holder_lab_id
+			WHERE c.root_id = lv.root_id AND c.depth = lv.depth + 1
+		) n
+		WHERE cardinality(lv.ids) > 0 AND (CAST(:depth AS int) IS NULL OR lv.level < CAST(:depth AS int))
+	)
+	SELECT '{"code":"' || CAST(:code AS text) ||
+		'","ancestors":[' || coalesce((SELECT string_agg(entry, ',' ORDER BY level) FROM anc WHERE CAST(:lab AS uuid) IS NULL OR holder_lab_id = CAST(:lab AS uuid)), '') ||
+		'],"descendants":[' || coalesce((SELECT string_agg(entries, ',' ORDER BY level) FROM lv WHERE level > 0 AND entries <> ''), '') ||
+		'],"withheld":' || ((SELECT count(*) FROM anc WHERE CAST(:lab AS uuid) IS NOT NULL AND holder_lab_id IS DISTINCT FROM CAST(:lab AS uuid)) + (SELECT sum(withheld) FROM lv)) ||
+		',"depth":' || coalesce(CAST(:depth AS int)::text, 'null') || '}' AS body,
+		(SELECT lineage_version FROM collections WHERE id = CAST(:collection AS uuid)) AS version`;
+
+/**
  * Ancestors (root first) and descendants (by level) of an item through one recursive query,
  * with the answer's JSON text built by PostgreSQL (a tree of 10,000 items stays one round trip and
  * one string). `depth` limits the descendant levels (a tree opened one level at a time); every
@@ -52,47 +106,7 @@ export async function lineageBytes(sq: Sequelize, who: Who, codeText: string, de
 		cache.set(key, kept);
 		return kept.body;
 	}
-	const [row] = await sq.query<{ body: string; version: number }>(
-		`WITH RECURSIVE up AS (
-			SELECT id, parent_id, code, serial, kind, state, mass_ug, initial_mass_ug, holder_lab_id, 0 AS level FROM items WHERE id = :id
-			UNION ALL
-			SELECT p.id, p.parent_id, p.code, p.serial, p.kind, p.state, p.mass_ug, p.initial_mass_ug, p.holder_lab_id, up.level - 1
-			FROM items p JOIN up ON p.id = up.parent_id
-		), down AS (
-			SELECT id, code, NULL::text AS parent_code, serial, kind, state, mass_ug, initial_mass_ug, holder_lab_id, 0 AS level FROM items WHERE id = :id
-			UNION ALL
-			SELECT c.id, c.code, down.code, c.serial, c.kind, c.state, c.mass_ug, c.initial_mass_ug, c.holder_lab_id, down.level + 1
-			FROM items c JOIN down ON c.parent_id = down.id
-			WHERE :depth::int IS NULL OR down.level < :depth::int
-		), kids AS (
-			SELECT parent_code, count(*) AS n FROM down WHERE level > 0 GROUP BY parent_code
-		), tree AS (
-			SELECT 'a' AS side, u.id, u.code, pa.code AS parent_code, u.serial, u.kind, u.state, u.mass_ug, u.initial_mass_ug, u.holder_lab_id, u.level,
-			       (SELECT count(*) FROM items k WHERE k.parent_id = u.id) AS children
-			FROM up u LEFT JOIN items pa ON pa.id = u.parent_id WHERE u.level < 0
-			UNION ALL
-			SELECT 'd', d.id, d.code, d.parent_code, d.serial, d.kind, d.state, d.mass_ug, d.initial_mass_ug, d.holder_lab_id, d.level,
-			       CASE WHEN d.level = :depth::int THEN (SELECT count(*) FROM items k WHERE k.parent_id = d.id) ELSE coalesce(kids.n, 0) END
-			FROM down d LEFT JOIN kids ON kids.parent_code = d.code WHERE d.level > 0
-		), rows AS (
-			-- each entry's JSON text put together here: json_build_object costs several times more per
-			-- object. Text goes through to_json (escaped as JSON wants); kind and state are the
-			-- items table's CHECKed words, and the numbers are integers
-			SELECT t.side, t.level, t.serial, t.holder_lab_id,
-			       '{"code":' || to_json(t.code)::text || ',"parentCode":' || coalesce(to_json(t.parent_code)::text, 'null') ||
-			       ',"level":' || t.level || ',"kind":"' || t.kind || '","state":"' || t.state || '","massUg":' || t.mass_ug ||
-			       ',"initialMassUg":' || t.initial_mass_ug || ',"holder":' || CASE WHEN l.name IS NULL THEN '"Facility"' ELSE to_json(l.name)::text END ||
-			       ',"children":' || t.children || '}' AS entry
-			FROM tree t LEFT JOIN labs l ON l.id = t.holder_lab_id
-		)
-		SELECT '{"code":' || to_json(CAST(:code AS text))::text ||
-			',"ancestors":[' || coalesce((SELECT string_agg(entry, ',' ORDER BY level) FROM rows WHERE side = 'a' AND (:lab::uuid IS NULL OR holder_lab_id = :lab::uuid)), '') ||
-			'],"descendants":[' || coalesce((SELECT string_agg(entry, ',' ORDER BY level, serial) FROM rows WHERE side = 'd' AND (:lab::uuid IS NULL OR holder_lab_id = :lab::uuid)), '') ||
-			'],"withheld":' || (SELECT count(*) FROM rows WHERE :lab::uuid IS NOT NULL AND holder_lab_id IS DISTINCT FROM :lab::uuid) ||
-			',"depth":' || coalesce(CAST(:depth AS int)::text, 'null') || '}' AS body,
-		(SELECT lineage_version FROM collections WHERE id = :collection) AS version`,
-		{ type: QueryTypes.SELECT, replacements: { id: item.id, code: item.code, depth, lab, collection: item.collection_id } }
-	);
+	const [row] = await preparedRead<{ body: string; version: number }>(sq, LINEAGE_SQL, { id: item.id, code: item.code, depth, lab, collection: item.collection_id });
 	const body = Buffer.from(row.body, 'utf8');
 	remember(key, Number(row.version), body);
 	return body;
