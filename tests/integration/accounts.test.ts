@@ -10,6 +10,7 @@ import { enqueueMail, deliverDue } from '../../src/lib/server/outbox';
 import { makeTransport } from '../../src/lib/server/mail';
 import { readMailbox } from '../../fakes/mailbox.mjs';
 import { startSmtp } from '../../fakes/smtp.mjs';
+import { holdPort, release } from '../helpers/ports';
 
 const DB = process.env.REGOLOG_DB_NAME ?? 'regolog_test';
 const unique = () => Math.random().toString(36).slice(2, 8);
@@ -198,6 +199,8 @@ describe('the mail outbox', () => {
 		const dir = mkdtempSync(join(process.cwd(), '.regolog', 'smtp-outbox-'));
 		const port = Number(process.env.REGOLOG_TEST_PORT_SCRATCH_S3 ?? 54324) + 10;
 		const transport = makeTransport({ host: '127.0.0.1', port, secure: false, user: '', password: '' });
+		// the relay is down, its port held so that it can come up on it (see holdPort)
+		const dropper = await holdPort(port);
 		const sequelize = models();
 		const to = `outage-${unique()}@brightwater.example`;
 		// The app's own sender polls the shared table; hold the message back from it by scheduling
@@ -224,6 +227,7 @@ describe('the mail outbox', () => {
 		expect(row.last_error).toBeTruthy();
 
 		// Relay back: the same message is delivered.
+		await release(dropper);
 		const server: any = await startSmtp({ port, dir });
 		expect(await sendNow()).toBe('sent');
 		const kept = await readMailbox(dir);

@@ -5,6 +5,7 @@ import { closeDb } from '../../src/lib/server/db';
 import { startS3 } from '../../fakes/s3.mjs';
 import { mkdtempSync, rmSync } from 'node:fs';
 import { join } from 'node:path';
+import { holdPort, release } from '../helpers/ports';
 
 afterAll(() => closeDb());
 
@@ -25,12 +26,15 @@ describe('health', () => {
 		expect((await checkHealth({ s3: up, bucket: 'health-bucket' })).parts.storage).toBe('ok');
 		up.destroy();
 		await server.close();
+		// down, with its port held so that it can come back on it (see holdPort)
+		const dropper = await holdPort(port);
 		const client = makeS3(settings);
 		const down = await checkHealth({ s3: client, bucket: 'health-bucket' });
 		client.destroy();
 		expect(down.ok).toBe(false);
 		expect(down.parts.db).toBe('ok');
 		expect(down.parts.storage).toMatch(/^unavailable/);
+		await release(dropper);
 		const back = await startS3({ port, dir, bucket: 'health-bucket' });
 		const again = makeS3(settings);
 		expect((await checkHealth({ s3: again, bucket: 'health-bucket' })).parts.storage).toBe('ok');
