@@ -47,6 +47,8 @@ try {
 	await waitForPort(Number(env.PORT), 'the app');
 	const base = `http://127.0.0.1:${env.PORT}`;
 	const db = new pg.Client({ host: '127.0.0.1', port: Number(env.REGOLOG_DB_PORT), user: env.REGOLOG_DB_USER, password: env.REGOLOG_DB_PASSWORD, database: env.REGOLOG_DB_NAME });
+	// a failed run stops the cluster under this connection: that is reported below, not thrown again
+	db.on('error', () => {});
 	await db.connect();
 
 	// ── a signed-in curator
