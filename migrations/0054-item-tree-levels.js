@@ -5,7 +5,7 @@
 // now keeps parent_id alone for children counts and the foreign key).
 //
 // root_id is set by the database on every insert, from the parent row, and like the rest of an
-// item's identity it never changes afterwards. A child's depth must be its parent's depth + 1: the
+// item's identity (migration 0010's items_identity_fixed) it never changes afterwards. A child's depth must be its parent's depth + 1: the
 // level walk relies on it, so the same trigger refuses anything else. Codes are letters, digits and
 // hyphens (PREFIX-NNNNN-C), so they go into the lineage's JSON text as they are.
 export async function up({ sequelize }) {
@@ -49,16 +49,14 @@ export async function up({ sequelize }) {
 		END $$;
 		CREATE TRIGGER items_tree_root BEFORE INSERT ON items FOR EACH ROW EXECUTE FUNCTION set_item_root();
 
-		CREATE OR REPLACE FUNCTION refuse_item_identity_change() RETURNS trigger LANGUAGE plpgsql AS $$
+		CREATE FUNCTION refuse_item_root_change() RETURNS trigger LANGUAGE plpgsql AS $$
 		BEGIN
-			IF NEW.code <> OLD.code OR NEW.serial <> OLD.serial OR NEW.collection_id <> OLD.collection_id
-			   OR NEW.parent_id IS DISTINCT FROM OLD.parent_id OR NEW.depth <> OLD.depth OR NEW.kind <> OLD.kind
-			   OR NEW.initial_mass_ug <> OLD.initial_mass_ug OR NEW.split_id IS DISTINCT FROM OLD.split_id
-			   OR NEW.root_id <> OLD.root_id THEN
-				RAISE EXCEPTION 'item %: code, origin, kind and initial mass cannot change', OLD.code USING ERRCODE = 'insufficient_privilege';
+			IF NEW.root_id <> OLD.root_id THEN
+				RAISE EXCEPTION 'item %: the tree it belongs to cannot change', OLD.code USING ERRCODE = 'insufficient_privilege';
 			END IF;
 			RETURN NEW;
 		END $$;
+		CREATE TRIGGER items_root_fixed BEFORE UPDATE OF root_id ON items FOR EACH ROW EXECUTE FUNCTION refuse_item_root_change();
 
 		CREATE INDEX items_tree_level_idx ON items (root_id, depth, parent_id)
 			INCLUDE (id, code, serial, kind, state, mass_ug, initial_mass_ug, holder_lab_id);
@@ -73,15 +71,8 @@ export async function down({ sequelize }) {
 		DROP INDEX items_parent_idx;
 		CREATE INDEX items_parent_idx ON items (parent_id) INCLUDE (id, code, serial, kind, state, mass_ug, initial_mass_ug, holder_lab_id);
 		DROP INDEX items_tree_level_idx;
-		CREATE OR REPLACE FUNCTION refuse_item_identity_change() RETURNS trigger LANGUAGE plpgsql AS $$
-		BEGIN
-			IF NEW.code <> OLD.code OR NEW.serial <> OLD.serial OR NEW.collection_id <> OLD.collection_id
-			   OR NEW.parent_id IS DISTINCT FROM OLD.parent_id OR NEW.depth <> OLD.depth OR NEW.kind <> OLD.kind
-			   OR NEW.initial_mass_ug <> OLD.initial_mass_ug OR NEW.split_id IS DISTINCT FROM OLD.split_id THEN
-				RAISE EXCEPTION 'item %: code, origin, kind and initial mass cannot change', OLD.code USING ERRCODE = 'insufficient_privilege';
-			END IF;
-			RETURN NEW;
-		END $$;
+		DROP TRIGGER items_root_fixed ON items;
+		DROP FUNCTION refuse_item_root_change();
 		DROP TRIGGER items_tree_root ON items;
 		DROP FUNCTION set_item_root();
 		ALTER TABLE items DROP CONSTRAINT items_code_characters, DROP COLUMN root_id;
