@@ -113,3 +113,23 @@ test('an administrator changes a collection rule and sees it saved', async ({ pa
 	await page.reload();
 	await expect(page.getByRole('region', { name: /ICE/ })).toContainText('30.0 % kept back');
 });
+
+test('a lab member is told how many related items are held elsewhere, one or many', async ({ page }) => {
+	await signIn(page, 'analyst@fennick.example');
+	// the lab's items with what each one's page withholds (its parent and children, as the page asks)
+	const items = (await (await page.request.get('/api/items?limit=100')).json()).items as { code: string }[];
+	const withheld = new Map<number, string>();
+	for (const { code } of items) {
+		const n = (await (await page.request.get(`/api/items/${code}/lineage?depth=1`)).json()).withheld as number;
+		if (n > 0 && !withheld.has(Math.min(n, 2))) withheld.set(Math.min(n, 2), code);
+	}
+	// the demo lends the lab an aliquot straight from a parent specimen the facility keeps
+	expect(withheld.has(1)).toBe(true);
+	for (const [n, code] of withheld) {
+		await page.goto(`/items/${code}`);
+		await expect(page.getByTestId('item-code')).toHaveText(code);
+		const lineage = await (await page.request.get(`/api/items/${code}/lineage?depth=1`)).json();
+		const sentence = n === 1 ? '1 related item is' : `${lineage.withheld} related items are`;
+		await expect(page.getByText(/held elsewhere and not shown to your lab/)).toHaveText(`${sentence} held elsewhere and not shown to your lab.`);
+	}
+});
