@@ -211,8 +211,11 @@ COMMIT;
 		return { p50: pct(times, 50), p95: pct(times, 95), parsedP50: pct(parsed, 50), parsedP95: pct(parsed, 95), size, runs };
 	};
 	const whole = await timeLineage(root.body.item.code, LINEAGE_RUNS);
-	const cold = await timeLineage(root.body.item.code, Math.min(LINEAGE_RUNS, 30), true);
+	const cold = await timeLineage(root.body.item.code, LINEAGE_RUNS, true);
 	const up = await timeLineage(leaf, LINEAGE_RUNS);
+	// an aliquot's lineage walks its subtree level by level (a root's is its whole tree, read at once)
+	const branch = code(2);
+	const branchCold = await timeLineage(branch, Math.min(LINEAGE_RUNS, 30), true);
 	await db.end();
 
 	const f = (x, d = 1) => x.toFixed(d);
@@ -226,6 +229,7 @@ COMMIT;
 	console.log(`    repeated, answered from memory (nothing changed since the last request): ${both(whole)}`);
 	console.log(`    computed afresh after a change elsewhere in the collection, ${cold.runs} requests: ${both(cold)}`);
 	console.log(`  lineage of a leaf ${sizes.length} levels down (${up.size} ancestors): ${both(up)}`);
+	console.log(`  lineage of an aliquot one level down (${branchCold.size - 1} descendants, walked level by level), computed afresh: ${both(branchCold)}`);
 } catch (e) {
 	console.error(`[regolog] benchmark failed: ${e.message}`);
 	process.exitCode = 1;

@@ -3,7 +3,7 @@ import type pg from 'pg';
 /**
  * Reading `COPY … TO STDOUT (FORMAT binary)` straight off a pg connection's socket, tuple by tuple,
  * with each field's bytes left where they arrived (no per-row objects, no copies except for the one
- * message a socket chunk cuts in two).
+ * message a socket chunk cuts in two, whose parts are joined once).
  *
  * Two formats are read, both from the PostgreSQL documentation:
  * - the frontend/backend protocol's messages (chapter "Frontend/Backend Protocol", "Message
@@ -41,7 +41,9 @@ export class CopyOutParser {
 	stopped = false;
 	/** handed the rest to onRest: the copy is over */
 	finished = false;
-	private pending: Buffer | null = null;
+	/** the parts of a message that a chunk began and the next ones go on with */
+	private pending: Buffer[] = [];
+	private pendingLength = 0;
 	private headerRead = false;
 	private other = false;
 
@@ -58,26 +60,32 @@ export class CopyOutParser {
 	push(chunk: Buffer): boolean {
 		if (this.finished || this.stopped) return false;
 		let off = 0;
-		while (this.pending) {
-			// complete the message an earlier chunk began, with just the bytes it still needs
-			const have = this.pending.length;
-			const need = have < 5 ? 5 : 1 + this.pending.readUInt32BE(1);
-			const take = Math.min(chunk.length - off, need - have);
-			const joined = Buffer.concat([this.pending, chunk.subarray(off, off + take)]);
-			off += take;
-			if (joined.length < need) {
-				this.pending = joined;
-				return true;
+		while (this.pendingLength > 0) {
+			// complete the message an earlier chunk began, with just the bytes it still needs: its parts
+			// are kept as they came and joined once, so a long message is not copied again per chunk
+			if (this.pendingLength < 5) {
+				const take = Math.min(chunk.length - off, 5 - this.pendingLength);
+				this.pending.push(chunk.subarray(off, off + take));
+				this.pendingLength += take;
+				off += take;
+				if (this.pendingLength < 5) return true;
+				this.pending = [Buffer.concat(this.pending)];
 			}
-			this.pending = null;
+			const need = 1 + this.pending[0].readUInt32BE(1);
+			const take = Math.min(chunk.length - off, need - this.pendingLength);
+			this.pending.push(chunk.subarray(off, off + take));
+			this.pendingLength += take;
+			off += take;
+			if (this.pendingLength < need) return true;
+			const joined = this.pending.length === 1 ? this.pending[0] : Buffer.concat(this.pending, this.pendingLength);
+			this.pending = [];
+			this.pendingLength = 0;
 			const r = this.messages(joined, 0);
 			if (r < 0) return false;
 			if (this.other) {
 				this.finish(Buffer.concat([joined.subarray(r), chunk.subarray(off)]));
 				return false;
 			}
-			// only the type and length of a longer message so far: go on for the rest of it
-			if (r < joined.length) this.pending = joined;
 		}
 		const r = this.messages(chunk, off);
 		if (r < 0) return false;
@@ -85,7 +93,10 @@ export class CopyOutParser {
 			this.finish(chunk.subarray(r));
 			return false;
 		}
-		if (r < chunk.length) this.pending = Buffer.from(chunk.subarray(r)); // a copy: the chunk is not held on to
+		if (r < chunk.length) {
+			this.pending = [chunk.subarray(r)];
+			this.pendingLength = chunk.length - r;
+		}
 		return true;
 	}
 

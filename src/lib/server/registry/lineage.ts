@@ -1,7 +1,10 @@
 import { QueryTypes, type Sequelize } from 'sequelize';
 import { labFilter } from '../auth/scope';
 import { findItem, type ItemRow, type Who } from './common';
+import type pg from 'pg';
 import { preparedRead } from '../prepared';
+import { CopyOutQuery, submitCopyOut } from '../copy-out';
+import { countQueries, queryCount } from '../db';
 
 /**
  * Lineages already computed, by item, depth and lab, with the collection's lineage_version they
@@ -29,62 +32,178 @@ function remember(key: string, version: number, body: Buffer): void {
 }
 
 /**
- * The lineage's one recursive query. Ancestors come up the parent links one row per step (there are
- * few). Descendants come down one level per step (`lv`): the next level is one range of
- * items_tree_level_idx (same tree, depth + 1, migration 0054) joined by hash with the level above,
- * and the range one further down counted by parent gives each entry its number of children. Each
- * step also writes its entries' JSON text, in serial order, so the answer is the levels' texts
- * joined. Lab members see only the entries their lab holds; the rest are counted as withheld.
- * The text is put together by hand (json_build_object costs several times more per object): text
- * that may need escaping goes through to_json; codes are letters, digits and hyphens (a CHECK of
- * migration 0054), kind and state are the items table's CHECKed words, and the numbers are integers.
+ * The lineage of an item below the root, in one recursive query. Ancestors come up the parent links
+ * one row per step (there are few). Descendants come down one level per step (`lv`): the next
+ * level is one range of items_tree_level_idx (same tree, depth + 1, migrations 0054 and 0055) joined
+ * by hash with the level above. Every item carries its entry's JSON text, kept by the database
+ * (lineage_entry, migration 0055: everything but the level, which depends on where the lineage
+ * starts), and each step joins its level's entries in serial order with the level between them, so
+ * nothing is put together per item here. Lab members see only the entries their lab holds; the rest
+ * are counted as withheld.
+ *
+ * The answer comes as one row per level (0: the ancestors), and lineageBytes joins them: PostgreSQL
+ * takes several times longer to join a megabyte of text with || than to send it in pieces.
  */
 const LINEAGE_SQL = `WITH RECURSIVE up AS (
-		SELECT id, parent_id, code, serial, kind, state, mass_ug, initial_mass_ug, holder_lab_id, 0 AS level FROM items WHERE id = :id
+		SELECT id, parent_id, holder_lab_id, lineage_entry, 0 AS level FROM items WHERE id = :id
 		UNION ALL
-		SELECT p.id, p.parent_id, p.code, p.serial, p.kind, p.state, p.mass_ug, p.initial_mass_ug, p.holder_lab_id, up.level - 1
+		SELECT p.id, p.parent_id, p.holder_lab_id, p.lineage_entry, up.level - 1
 		FROM items p JOIN up ON p.id = up.parent_id
-	), lab AS (
-		SELECT id, to_json(name)::text AS name FROM labs
-	), anc AS (
-		SELECT u.level, u.holder_lab_id,
-		       '{"code":"' || u.code || '","parentCode":' || coalesce('"' || pa.code || '"', 'null') || ',"level":' || u.level ||
-		       ',"kind":"' || u.kind || '","state":"' || u.state || '","massUg":' || u.mass_ug || ',"initialMassUg":' || u.initial_mass_ug ||
-		       ',"holder":' || coalesce(l.name, '"Facility"') || ',"children":' || (SELECT count(*) FROM items k WHERE k.parent_id = u.id) || '}' AS entry
-		FROM up u LEFT JOIN items pa ON pa.id = u.parent_id LEFT JOIN lab l ON l.id = u.holder_lab_id
-		WHERE u.level < 0
 	), lv AS (
-		SELECT 0 AS level, i.depth, i.root_id, ARRAY[i.id] AS ids, ARRAY[i.code] AS codes, NULL::text AS entries, 0::bigint AS withheld
+		SELECT 0 AS level, i.depth, i.root_id, ARRAY[i.id] AS ids, NULL::text AS entries, 0::bigint AS withheld
 		FROM items i WHERE i.id = :id
 		UNION ALL
-		SELECT lv.level + 1, lv.depth + 1, lv.root_id, n.ids, n.codes, n.entries, n.withheld
+		SELECT lv.level + 1, lv.depth + 1, lv.root_id, n.ids, n.entries, n.withheld
 		FROM lv, LATERAL (
-			SELECT array_agg(c.id) AS ids, array_agg(c.code) AS codes,
-			       string_agg('{"code":"' || c.code || '","parentCode":"' || p.code || '","level":' || (lv.level + 1) ||
-			                  ',"kind":"' || c.kind || '","state":"' || c.state || '","massUg":' || c.mass_ug || ',"initialMassUg":' || c.initial_mass_ug ||
-			                  ',"holder":' || coalesce(l.name, '"Facility"') || ',"children":' || coalesce(k.n, 0) || '}', ',' ORDER BY c.serial)
+			SELECT array_agg(c.id) AS ids,
+			       string_agg(c.lineage_entry, ',"level":' || (lv.level + 1) || '},' ORDER BY c.serial)
 			              FILTER (WHERE CAST(:lab AS uuid) IS NULL OR c.holder_lab_id = CAST(:lab AS uuid)) AS entries,
 			       count(*) FILTER (WHERE CAST(:lab AS uuid) IS NOT NULL AND c.holder_lab_id IS DISTINCT FROM CAST(:lab AS uuid)) AS withheld
 			FROM items c
-			JOIN unnest(lv.ids, lv.codes) AS p (id, code) ON c.parent_id = p.id
-			LEFT JOIN (SELECT g.parent_id, count(*) AS n FROM items g WHERE g.root_id = lv.root_id AND g.depth = lv.depth + 2 GROUP BY g.parent_id) k
-			       ON k.parent_id = c.id
-			LEFT JOIN lab l ON l.id = c.holder_lab_id
+			JOIN unnest(lv.ids) AS p (id) ON c.parent_id = p.id
 			WHERE c.root_id = lv.root_id AND c.depth = lv.depth + 1
 		) n
 		WHERE cardinality(lv.ids) > 0 AND (CAST(:depth AS int) IS NULL OR lv.level < CAST(:depth AS int))
 	)
-	SELECT '{"code":"' || CAST(:code AS text) ||
-		'","ancestors":[' || coalesce((SELECT string_agg(entry, ',' ORDER BY level) FROM anc WHERE CAST(:lab AS uuid) IS NULL OR holder_lab_id = CAST(:lab AS uuid)), '') ||
-		'],"descendants":[' || coalesce((SELECT string_agg(entries, ',' ORDER BY level) FROM lv WHERE level > 0 AND entries <> ''), '') ||
-		'],"withheld":' || ((SELECT count(*) FROM anc WHERE CAST(:lab AS uuid) IS NOT NULL AND holder_lab_id IS DISTINCT FROM CAST(:lab AS uuid)) + (SELECT sum(withheld) FROM lv)) ||
-		',"depth":' || coalesce(CAST(:depth AS int)::text, 'null') || '}' AS body,
-		(SELECT lineage_version FROM collections WHERE id = CAST(:collection AS uuid)) AS version`;
+	SELECT 0 AS level,
+		(SELECT string_agg(lineage_entry || ',"level":' || level || '}', ',' ORDER BY level) FROM up
+		 WHERE level < 0 AND (CAST(:lab AS uuid) IS NULL OR holder_lab_id = CAST(:lab AS uuid))) AS entries,
+		(SELECT count(*) FROM up WHERE level < 0 AND CAST(:lab AS uuid) IS NOT NULL AND holder_lab_id IS DISTINCT FROM CAST(:lab AS uuid)) AS withheld,
+		(SELECT lineage_version FROM collections WHERE id = CAST(:collection AS uuid)) AS version
+	UNION ALL
+	SELECT level, entries, withheld, NULL FROM lv WHERE level > 0`;
+
+/**
+ * The lineage of a tree's root (a parent specimen, or a blank on its own): it has no ancestors, and
+ * its descendants are its whole tree, every item with its root_id below depth 0, at their own depth
+ * as level. So no walk is needed: one range of items_tree_level_idx (migration 0055), read in
+ * (depth, serial) order, gives the tree in the lineage's order, and each level's entries are joined
+ * as they come (an ordered subquery, which PostgreSQL's aggregates consume in that order; the
+ * lineage tests compare every level's order with the tree worked out from the items table).
+ *
+ * Where one tree is most of the table, the planner would rather scan the table and sort a megabyte
+ * of entries, several times slower than reading the index in order: rootLevels forbids both for
+ * this statement alone (SET LOCAL in a transaction of its own).
+ *
+ * It is read as binary COPY (copy-out.ts), so each level's text arrives as the UTF-8 bytes that go
+ * into the answer, with no decoding into JavaScript strings and back (for a tree of 10,000 items
+ * that decoding cost more than the query). COPY takes no parameters: the values are checked UUIDs
+ * and integers, written into the statement.
+ */
+const rootLineageCopy = (id: string, depth: number | null, lab: string | null, collection: string) => {
+	const labSql = lab === null ? 'NULL::uuid' : `${uuidLiteral(lab)}::uuid`;
+	return `COPY (SELECT 0 AS level, NULL::text AS entries, 0::bigint AS withheld,
+		(SELECT lineage_version FROM collections WHERE id = ${uuidLiteral(collection)}::uuid) AS version
+	UNION ALL
+	SELECT level,
+	       string_agg(lineage_entry, sep) FILTER (WHERE ${labSql} IS NULL OR holder_lab_id = ${labSql}),
+	       count(*) FILTER (WHERE ${labSql} IS NOT NULL AND holder_lab_id IS DISTINCT FROM ${labSql}),
+	       NULL
+	FROM (SELECT depth AS level, ',"level":' || depth || '},' AS sep, lineage_entry, holder_lab_id FROM items
+	      WHERE root_id = ${uuidLiteral(id)}::uuid AND depth BETWEEN 1 AND ${depth === null ? 2147483647 : intLiteral(depth)}
+	      ORDER BY depth, serial) tree
+	GROUP BY level) TO STDOUT (FORMAT binary)`;
+};
+const ROOT_PLAN = 'BEGIN READ ONLY; SET LOCAL enable_seqscan = off; SET LOCAL enable_sort = off';
+
+const UUID = /^[0-9a-f]{8}-[0-9a-f]{4}-[0-9a-f]{4}-[0-9a-f]{4}-[0-9a-f]{12}$/i;
+function uuidLiteral(v: string): string {
+	if (!UUID.test(v)) throw new Error(`not a UUID: ${JSON.stringify(v)}`);
+	return `'${v}'`;
+}
+function intLiteral(v: number): string {
+	if (!Number.isSafeInteger(v)) throw new Error(`not an integer: ${v}`);
+	return String(v);
+}
+
+interface Pool {
+	getConnection(options: { type: 'read' | 'write' }): Promise<pg.ClientBase & { _invalid?: boolean }>;
+	releaseConnection(connection: pg.ClientBase): Promise<void> | void;
+}
+
+/** One level of a lineage as read: level 0 is the ancestors; entries end before their last level. */
+interface Level {
+	level: number;
+	entries: Buffer | null;
+	withheld: number;
+	version: number | null;
+}
+
+/** A root's lineage levels (rootLineageCopy), read off a connection of Sequelize's pool as binary COPY. */
+async function rootLevels(sq: Sequelize, id: string, depth: number | null, lab: string | null, collection: string): Promise<Level[]> {
+	const pool = (sq as unknown as { connectionManager: Pool }).connectionManager;
+	const connection = await pool.getConnection({ type: 'read' });
+	const levels: Level[] = [];
+	const q = new CopyOutQuery(rootLineageCopy(id, depth, lab, collection), 4, (buf, { start, end }) => {
+		levels.push({
+			level: buf.readInt32BE(start[0]),
+			// the bytes where they arrived (socket chunks are not reused), copied once into the answer
+			entries: start[1] < 0 ? null : buf.subarray(start[1], end[1]),
+			withheld: Number(buf.readBigInt64BE(start[2])),
+			version: start[3] < 0 ? null : Number(buf.readBigInt64BE(start[3]))
+		});
+		return true;
+	});
+	if (countQueries) {
+		const n = queryCount.getStore();
+		if (n) n.n++;
+	}
+	let began = false;
+	try {
+		await connection.query(ROOT_PLAN);
+		began = true;
+		submitCopyOut(connection as pg.Client, q);
+		await q.done;
+		if (!q.parser.ended) throw new Error('the lineage stream ended early');
+		await connection.query('COMMIT');
+	} catch (e) {
+		if (q.parser && !q.parser.finished) {
+			// a stream cut short leaves the connection mid-protocol: it is not used again
+			q.abandon();
+			connection._invalid = true;
+		} else if (began) {
+			await connection.query('ROLLBACK').catch(() => (connection._invalid = true));
+		}
+		throw e;
+	} finally {
+		await pool.releaseConnection(connection);
+	}
+	return levels;
+}
+
+interface LevelRow {
+	level: number;
+	entries: string | null;
+	withheld: string | number;
+	version: string | number | null;
+}
+
+/**
+ * The lineage's JSON bytes from its levels: the ancestors (level 0) and each level's entries, whose
+ * text ends before the last entry's level.
+ */
+function lineageBody(code: string, depth: number | null, rows: Level[]): { body: Buffer; version: number } {
+	const levels = [...rows].sort((a, b) => a.level - b.level);
+	if (levels[0]?.level !== 0) throw new Error('the lineage query gave no ancestors row');
+	let withheld = 0;
+	const parts: Buffer[] = [Buffer.from('{"code":"' + code + '","ancestors":['), levels[0].entries ?? Buffer.alloc(0), Buffer.from('],"descendants":[')];
+	let first = true;
+	for (const r of levels) {
+		withheld += r.withheld;
+		if (r.level === 0 || !r.entries?.length) continue;
+		if (!first) parts.push(COMMA);
+		parts.push(r.entries, Buffer.from(',"level":' + r.level + '}'));
+		first = false;
+	}
+	parts.push(Buffer.from('],"withheld":' + withheld + ',"depth":' + (depth === null ? 'null' : String(depth)) + '}'));
+	return { body: Buffer.concat(parts), version: Number(levels[0].version) };
+}
+const COMMA = Buffer.from(',');
 
 /**
  * Ancestors (root first) and descendants (by level) of an item through one recursive query,
- * with the answer's JSON text built by PostgreSQL (a tree of 10,000 items stays one round trip and
- * one string). `depth` limits the descendant levels (a tree opened one level at a time); every
+ * with each entry's JSON text kept by the database (a tree of 10,000 items stays one round trip).
+ * `depth` limits the descendant levels (a tree opened one level at a time); every
  * entry carries its number of children so the tree knows what can be opened. Lab members see
  * only the entries their lab holds; the rest are counted as withheld. An answer computed at the
  * collection's current lineage_version is served from memory (see `cache`); the query reads the
@@ -106,9 +225,17 @@ export async function lineageBytes(sq: Sequelize, who: Who, codeText: string, de
 		cache.set(key, kept);
 		return kept.body;
 	}
-	const [row] = await preparedRead<{ body: string; version: number }>(sq, LINEAGE_SQL, { id: item.id, code: item.code, depth, lab, collection: item.collection_id });
-	const body = Buffer.from(row.body, 'utf8');
-	remember(key, Number(row.version), body);
+	const levels =
+		item.parent_id === null
+			? await rootLevels(sq, item.id, depth, lab, item.collection_id)
+			: (await preparedRead<LevelRow>(sq, LINEAGE_SQL, { id: item.id, depth, lab, collection: item.collection_id })).map((r) => ({
+					level: r.level,
+					entries: r.entries === null ? null : Buffer.from(r.entries, 'utf8'),
+					withheld: Number(r.withheld),
+					version: r.version === null ? null : Number(r.version)
+				}));
+	const { body, version } = lineageBody(item.code, depth, levels);
+	remember(key, version, body);
 	return body;
 }
 

@@ -12,6 +12,13 @@ const query = z.strictObject({
 export const GET: RequestHandler = endpoint(async ({ params, url, locals }) => {
 	const { depth } = readQuery(url, query);
 	const body = await lineageBytes(models(), whoFrom(locals.user!), params.code, depth ?? null);
-	// the kept bytes themselves, not a copy (a Buffer is a Uint8Array over an ArrayBuffer)
-	return new Response(body as Uint8Array<ArrayBuffer>, { headers: { 'content-type': 'application/json', 'content-length': String(body.byteLength) } });
+	// the kept bytes themselves, not a copy: a Response made from bytes copies them, one made from a
+	// stream passes its chunks on as they are
+	const stream = new ReadableStream<Uint8Array>({
+		start(controller) {
+			controller.enqueue(body);
+			controller.close();
+		}
+	});
+	return new Response(stream, { headers: { 'content-type': 'application/json', 'content-length': String(body.byteLength) } });
 });
