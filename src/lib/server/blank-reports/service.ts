@@ -17,10 +17,26 @@ export interface NewReport {
 	bytes: Uint8Array;
 }
 
+/**
+ * Reads and drops what is left of a refused upload, so that the refusal reaches the client: a
+ * connection closed with unread data in it is reset, and the reset can take the answer with it.
+ * Bounded by the server's body size limit (BODY_SIZE_LIMIT), past which the adapter ends the request.
+ */
+async function discardRest(reader: ReadableStreamDefaultReader<Uint8Array>): Promise<void> {
+	try {
+		while (!(await reader.read()).done);
+	} catch {
+		/* the request ended early: nothing is left to read */
+	}
+}
+
 /** Reads a request body into memory up to `max` bytes (a blank-control table is parsed whole). */
 export async function readLimited(body: ReadableStream<Uint8Array> | null, declared: number | null, max = config.documents.reportMaxBytes): Promise<Uint8Array> {
 	const tooLarge = () => new ApiProblem(413, 'too_large', `The file is larger than the limit of ${megabytes(max)} for a blank-control table; nothing was stored.`, { file: `larger than ${megabytes(max)}` });
-	if (declared !== null && declared > max) throw tooLarge();
+	if (declared !== null && declared > max) {
+		if (body) await discardRest(body.getReader());
+		throw tooLarge();
+	}
 	if (!body) return new Uint8Array();
 	const chunks: Uint8Array[] = [];
 	let size = 0;
@@ -31,7 +47,7 @@ export async function readLimited(body: ReadableStream<Uint8Array> | null, decla
 			if (done) break;
 			size += value.length;
 			if (size > max) {
-				await reader.cancel().catch(() => {});
+				await discardRest(reader);
 				throw tooLarge();
 			}
 			chunks.push(value);
