@@ -40,9 +40,13 @@ async function startFake(which: 's3' | 'smtp') {
 	const [port, args] = which === 's3'
 		? [S3_PORT, ['fakes/s3.mjs', '--port', String(S3_PORT), '--dir', s3Dir, '--bucket', 'regolog-documents']]
 		: [SMTP_PORT, ['fakes/smtp.mjs', '--port', String(SMTP_PORT), '--dir', mailDir]];
-	fakes[which] = spawn(process.execPath, args as string[], { stdio: 'ignore' });
-	for (let i = 0; i < 200 && !(await portOpen(port)); i++) await wait(50);
-	if (!(await portOpen(port))) throw new Error(`the ${which} fake did not open port ${port}`);
+	const child = spawn(process.execPath, args as string[], { stdio: ['ignore', 'ignore', 'pipe'] });
+	fakes[which] = child;
+	let stderr = '';
+	child.stderr!.on('data', (d) => (stderr += d));
+	// a machine busy with the other test files can take several seconds to start node
+	for (let i = 0; i < 600 && child.exitCode === null && !(await portOpen(port)); i++) await wait(50);
+	if (!(await portOpen(port))) throw new Error(`the ${which} fake did not open port ${port}${child.exitCode !== null ? ` (it exited with ${child.exitCode}: ${stderr.trim().slice(0, 500)})` : ''}`);
 }
 async function stopFake(which: 's3' | 'smtp') {
 	const c = fakes[which];
