@@ -9,7 +9,7 @@ import { countQueries, queryCount } from '../db';
 /**
  * Lineages already computed, by item, depth and lab, with the collection's lineage_version they
  * were computed at (migration 0051): while the version is unchanged the answer is the same, so it
- * is served again without the recursive query. Least recently used first out, within a byte budget.
+ * is served again without a query. Least recently used first out, within a byte budget.
  */
 const CACHE_BYTES = Number(process.env.REGOLOG_LINEAGE_CACHE_MB ?? 64) * 1024 * 1024;
 const cache = new Map<string, { version: number; body: Buffer }>();
@@ -201,8 +201,9 @@ function lineageBody(code: string, depth: number | null, rows: Level[]): { body:
 const COMMA = Buffer.from(',');
 
 /**
- * Ancestors (root first) and descendants (by level) of an item through one recursive query,
- * with each entry's JSON text kept by the database (a tree of 10,000 items stays one round trip).
+ * Ancestors (root first) and descendants (by level) of an item in one query: a root's whole tree as
+ * one range of the tree index (rootLevels), any other item's subtree walked level by level
+ * (LINEAGE_SQL), with each entry's JSON text kept by the database.
  * `depth` limits the descendant levels (a tree opened one level at a time); every
  * entry carries its number of children so the tree knows what can be opened. Lab members see
  * only the entries their lab holds; the rest are counted as withheld. An answer computed at the
