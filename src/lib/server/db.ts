@@ -11,6 +11,13 @@ import { config } from './config';
 export const countQueries = process.env.REGOLOG_COUNT_QUERIES === '1';
 export const queryCount = new AsyncLocalStorage<{ n: number }>();
 
+/** Counts one statement sent outside Sequelize's logging (prepared statements, COPY). */
+export function countQuery(): void {
+	if (!countQueries) return;
+	const c = queryCount.getStore();
+	if (c) c.n++;
+}
+
 // BIGINT (int8) columns hold micrograms. Parse them to JS numbers, refusing anything a
 // double cannot hold exactly, so a mass is never silently rounded.
 pg.types.setTypeParser(20, (text: string) => {
@@ -29,12 +36,7 @@ export function db(): Sequelize {
 			port: config.db.port,
 			dialect: 'postgres',
 			dialectModule: pg,
-			logging: countQueries
-				? () => {
-						const c = queryCount.getStore();
-						if (c) c.n++;
-					}
-				: false,
+			logging: countQueries ? countQuery : false,
 			pool: { max: config.db.poolMax, min: 0, idle: 10_000, acquire: 20_000 },
 			define: { underscored: true, timestamps: true }
 		});

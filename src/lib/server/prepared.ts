@@ -1,7 +1,7 @@
 import { createHash } from 'node:crypto';
 import type pg from 'pg';
 import type { Sequelize, Transaction } from 'sequelize';
-import { countQueries, queryCount } from './db';
+import { countQuery } from './db';
 
 /**
  * Statements sent often enough that parsing and planning them anew each time costs more than
@@ -44,10 +44,7 @@ async function run<T extends object>(connection: pg.ClientBase, sql: string, val
 		const v = values[p];
 		return v === undefined ? null : v;
 	});
-	if (countQueries) {
-		const n = queryCount.getStore();
-		if (n) n.n++;
-	}
+	countQuery();
 	const r = await connection.query<T>({ name: c.name, text: c.text, values: args });
 	return r.rows;
 }
@@ -60,8 +57,22 @@ export async function preparedQuery<T extends object>(t: Transaction, sql: strin
 }
 
 interface Pool {
-	getConnection(options: { type: 'read' | 'write' }): Promise<pg.ClientBase>;
+	getConnection(options: { type: 'read' | 'write' }): Promise<PooledConnection>;
 	releaseConnection(connection: pg.ClientBase): Promise<void> | void;
+}
+
+/** A connection of Sequelize's pool; one marked invalid is discarded instead of used again. */
+export type PooledConnection = pg.ClientBase & { _invalid?: boolean };
+
+/** Runs `fn` on a connection of Sequelize's pool, outside any transaction, and gives it back. */
+export async function withPooledConnection<T>(sq: Sequelize, fn: (connection: PooledConnection) => Promise<T>): Promise<T> {
+	const pool = (sq as unknown as { connectionManager: Pool }).connectionManager;
+	const connection = await pool.getConnection({ type: 'read' });
+	try {
+		return await fn(connection);
+	} finally {
+		await pool.releaseConnection(connection);
+	}
 }
 
 /**
@@ -69,13 +80,7 @@ interface Pool {
  * of Sequelize's pool (one statement: one snapshot); the rows it returns.
  */
 export async function preparedRead<T extends object>(sq: Sequelize, sql: string, values: Record<string, unknown>): Promise<T[]> {
-	const pool = (sq as unknown as { connectionManager: Pool }).connectionManager;
-	const connection = await pool.getConnection({ type: 'read' });
-	try {
-		return await run<T>(connection, sql, values);
-	} finally {
-		await pool.releaseConnection(connection);
-	}
+	return withPooledConnection(sq, (connection) => run<T>(connection, sql, values));
 }
 
 /** For tests: the text and parameter order a statement is prepared with. */

@@ -2,9 +2,9 @@ import { QueryTypes, type Sequelize } from 'sequelize';
 import { labFilter } from '../auth/scope';
 import { findItem, type ItemRow, type Who } from './common';
 import type pg from 'pg';
-import { preparedRead } from '../prepared';
+import { preparedRead, withPooledConnection } from '../prepared';
 import { CopyOutQuery, submitCopyOut } from '../copy-out';
-import { countQueries, queryCount } from '../db';
+import { countQuery } from '../db';
 
 /**
  * Lineages already computed, by item, depth and lab, with the collection's lineage_version they
@@ -116,11 +116,6 @@ function intLiteral(v: number): string {
 	return String(v);
 }
 
-interface Pool {
-	getConnection(options: { type: 'read' | 'write' }): Promise<pg.ClientBase & { _invalid?: boolean }>;
-	releaseConnection(connection: pg.ClientBase): Promise<void> | void;
-}
-
 /** One level of a lineage as read: level 0 is the ancestors; entries end before their last level. */
 interface Level {
 	level: number;
@@ -131,8 +126,6 @@ interface Level {
 
 /** A root's lineage levels (rootLineageCopy), read off a connection of Sequelize's pool as binary COPY. */
 async function rootLevels(sq: Sequelize, id: string, depth: number | null, lab: string | null, collection: string): Promise<Level[]> {
-	const pool = (sq as unknown as { connectionManager: Pool }).connectionManager;
-	const connection = await pool.getConnection({ type: 'read' });
 	const levels: Level[] = [];
 	const q = new CopyOutQuery(rootLineageCopy(id, depth, lab, collection), 4, (buf, { start, end }) => {
 		levels.push({
@@ -144,30 +137,27 @@ async function rootLevels(sq: Sequelize, id: string, depth: number | null, lab: 
 		});
 		return true;
 	});
-	if (countQueries) {
-		const n = queryCount.getStore();
-		if (n) n.n++;
-	}
-	let began = false;
-	try {
-		await connection.query(ROOT_PLAN);
-		began = true;
-		submitCopyOut(connection as pg.Client, q);
-		await q.done;
-		if (!q.parser.ended) throw new Error('the lineage stream ended early');
-		await connection.query('COMMIT');
-	} catch (e) {
-		if (q.parser && !q.parser.finished) {
-			// a stream cut short leaves the connection mid-protocol: it is not used again
-			q.abandon();
-			connection._invalid = true;
-		} else if (began) {
-			await connection.query('ROLLBACK').catch(() => (connection._invalid = true));
+	countQuery();
+	await withPooledConnection(sq, async (connection) => {
+		let began = false;
+		try {
+			await connection.query(ROOT_PLAN);
+			began = true;
+			submitCopyOut(connection as pg.Client, q);
+			await q.done;
+			if (!q.parser.ended) throw new Error('the lineage stream ended early');
+			await connection.query('COMMIT');
+		} catch (e) {
+			if (q.parser && !q.parser.finished) {
+				// a stream cut short leaves the connection mid-protocol: it is not used again
+				q.abandon();
+				connection._invalid = true;
+			} else if (began) {
+				await connection.query('ROLLBACK').catch(() => (connection._invalid = true));
+			}
+			throw e;
 		}
-		throw e;
-	} finally {
-		await pool.releaseConnection(connection);
-	}
+	});
 	return levels;
 }
 
