@@ -32,7 +32,16 @@ const stack = await startStack('test', { fresh: true });
 const env = { ...stack.env, NODE_ENV: 'test', REGOLOG_TEST: '1' };
 process.on('SIGINT', () => { stack.stop(); process.exit(130); });
 
-const steps = [
+// While working on one part: `npm test -- --vitest=<file>[,<file>…] --e2e=<spec>[,…]` runs the same
+// set-up, then only the build (when needed) and the named tests; `--check` adds svelte-check.
+// With no arguments (CI, the README) every step runs.
+const arg = (name) => process.argv.slice(2).find((a) => a.startsWith(`--${name}=`))?.slice(name.length + 3).split(',').filter(Boolean);
+const onlyVitest = arg('vitest');
+const onlyE2e = arg('e2e');
+const focused = Boolean(onlyVitest || onlyE2e);
+const wantCheck = !focused || process.argv.includes('--check');
+
+let steps = [
 	['npm audit', audit],
 	['migrate and seed', process.execPath, ['--import', 'tsx', 'scripts/setup-db.ts', '--bucket']],
 	['svelte-kit sync', 'npx', ['svelte-kit', 'sync']],
@@ -41,6 +50,12 @@ const steps = [
 	['vitest', 'npx', ['vitest', 'run']],
 	['playwright', 'npx', ['playwright', 'test']]
 ];
+if (focused) {
+	steps = steps
+		.filter(([name]) => name !== 'npm audit' && (wantCheck || name !== 'svelte-check'))
+		.filter(([name]) => (name !== 'vitest' || onlyVitest) && (name !== 'playwright' || onlyE2e))
+		.map((s) => (s[0] === 'vitest' ? ['vitest', 'npx', ['vitest', 'run', ...onlyVitest]] : s[0] === 'playwright' ? ['playwright', 'npx', ['playwright', 'test', ...onlyE2e]] : s));
+}
 let failed = null;
 for (const [name, cmd, args] of steps) {
 	const s = Date.now();

@@ -7,7 +7,7 @@ import { demoReportItems } from '../helpers/documents';
 import { pdftext } from '../helpers/pdf';
 import { db, closeDb } from '../../src/lib/server/db';
 import { demoCsv } from '../../src/lib/server/blank-reports/demo';
-import { COLUMNS } from '../../src/lib/blank-report';
+import { COLUMNS } from '../../src/lib/domain/blank-report';
 import { LIMITATIONS } from '../../src/lib/domain/blanks';
 import { mistype } from '../helpers/registry';
 

@@ -3,7 +3,7 @@ import { appendTrail, SYSTEM_ACTOR } from '../trail';
 import { registerSpecimen } from '../registry/items';
 import { SYSTEM_WHO, type Who } from '../registry/common';
 import { ApiProblem } from '../api';
-import { COLUMNS } from '../../blank-report';
+import { COLUMNS } from '../../domain/blank-report';
 import { createReport } from './service';
 
 export const DEMO_REPORT_TITLE = 'Hot-water extract of a Chamber A aliquot, chiral GC-MS run 1';

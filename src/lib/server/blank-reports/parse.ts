@@ -2,7 +2,7 @@ import { parse, CsvError } from 'csv-parse/sync';
 import { parseCode } from '../../domain/codes';
 import { aminoAcid } from '../../domain/blanks';
 import { ApiProblem } from '../api';
-import { COLUMNS, OPTIONAL_COLUMNS, analyteKey, type ParsedRow } from '../../blank-report';
+import { COLUMNS, OPTIONAL_COLUMNS, analyteKey, type ParsedRow } from '../../domain/blank-report';
 
 /** One problem in an uploaded table: the row is the line of the file (the header is row 1). */
 export interface CsvIssue {

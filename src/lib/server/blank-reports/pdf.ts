@@ -6,7 +6,7 @@
 import PDFDocument from 'pdfkit';
 import { createRequire } from 'node:module';
 import { readFileSync } from 'node:fs';
-import { eeSentence, flagsOf, formatNumber, FLAG_LABELS, METHOD_NOTES } from '../../blank-report';
+import { eeSentence, flagsOf, formatNumber, FLAG_LABELS, METHOD_NOTES } from '../../domain/blank-report';
 import type { ReportView } from './service';
 
 const requireHere = createRequire(import.meta.url);

@@ -5,7 +5,7 @@ import { canSeeLab, labCondition } from '../auth/scope';
 import { config } from '../config';
 import { appendTrail } from '../trail';
 import { trailActor, type Who } from '../registry/common';
-import { computeReport, type ReportResults, type RoleRow } from '../../blank-report';
+import { computeReport, type ReportResults, type RoleRow } from '../../domain/blank-report';
 import { DEFAULT_BLANK_SETTINGS } from '../../domain/blanks';
 import { csvProblem, parseBlankControlCsv, type CsvIssue } from './parse';
 import { documentView, megabytes, storeDocument, type DocumentRow, type StorageTarget } from '../documents/store';

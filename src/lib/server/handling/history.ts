@@ -7,7 +7,7 @@ import { QueryTypes, type Sequelize } from 'sequelize';
 import { ATMOSPHERE_LABELS, type Atmosphere } from '../../domain/exposure';
 import { findItem, type Who } from '../registry/common';
 
-import { HISTORY_KINDS, type HistoryKind } from '../../history';
+import { HISTORY_KINDS, type HistoryKind } from '../../vocabulary';
 export { HISTORY_KINDS };
 
 export interface HistoryEntry {

@@ -1,4 +1,4 @@
-import { templateCsv } from '$lib/blank-report';
+import { templateCsv } from '$lib/domain/blank-report';
 import type { RequestHandler } from './$types';
 
 export const GET: RequestHandler = () =>

@@ -1,4 +1,13 @@
-/** Words the registry pages show for stored values (client-safe). */
+/**
+ * Regolog's display vocabulary: the words and badge styles the pages show for stored values (item
+ * states and kinds, ledger entries, audit-history kinds). Client-safe; the server's history uses
+ * the same list of kinds.
+ */
+
+/** Kinds of entry in an item's audit history. */
+export const HISTORY_KINDS = ['lineage', 'custody', 'handling', 'weighing', 'blank'] as const;
+export type HistoryKind = (typeof HISTORY_KINDS)[number];
+
 export const STATE_LABELS: Record<string, string> = {
 	stored: 'stored',
 	earmarked: 'earmarked',
@@ -37,17 +46,4 @@ export function stateBadge(state: string): string {
 export function plusMinus(expandedUg: number | null): string {
 	if (expandedUg === null) return '(not weighed here)';
 	return `± ${expandedUg < 10 ? expandedUg.toFixed(2) : expandedUg.toFixed(1)} µg`;
-}
-
-/** One entry of GET /api/items/{code}/lineage. */
-export interface LineageEntry {
-	code: string;
-	parentCode: string | null;
-	level: number;
-	kind: string;
-	state: string;
-	massUg: number;
-	initialMassUg: number;
-	holder: string;
-	children: number;
 }

@@ -15,7 +15,7 @@ import {
 	type BlankStatistics,
 	type EnantiomericExcess,
 	type Measurement
-} from './domain/blanks';
+} from './blanks';
 
 /** The columns, in order. `uncertainty` may be left out of the header. */
 export const COLUMNS = ['analyte', 'enantiomer', 'sample_or_blank', 'replicate', 'value', 'unit', 'uncertainty'] as const;
