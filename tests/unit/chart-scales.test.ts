@@ -142,6 +142,9 @@ describe('time and percent axes', () => {
 		const a = timeAxis(['2026-03-01T10:00:00Z'], [0, 800]);
 		expect(a.scale(new Date('2026-03-01T10:00:00Z'))).toBeCloseTo(400, 6);
 		expect(a.ticks.length).toBeGreaterThan(1);
+		// its ticks show times only, so the axis names the day
+		expect(a.day).toBe('1 Mar 2026');
+		expect(timeAxis(['2026-03-01T10:00:00Z', '2026-03-04T10:00:00Z'], [0, 800]).day).toBeNull();
 	});
 
 	it('an ee axis is symmetric about 0 % with round percent steps', () => {

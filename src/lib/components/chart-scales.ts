@@ -128,6 +128,8 @@ export function wantsLog(values: readonly number[]): boolean {
 export interface TimeAxis {
 	scale: ScaleTime<number, number>;
 	ticks: Tick[];
+	/** the UTC day ("3 Feb 2026") when the whole axis lies within it, since its ticks then show times only */
+	day: string | null;
 }
 
 const fmtMinute = utcFormat('%H:%M');
@@ -154,7 +156,8 @@ export function timeAxis(instants: readonly string[], range: [number, number], c
 	lo -= pad;
 	hi += pad;
 	const scale = scaleUtc().domain([new Date(lo), new Date(hi)]).range(range);
-	return { scale, ticks: scale.ticks(count).map((d) => ({ value: d.getTime(), label: utcTickLabel(d) })) };
+	const day = utcDay.floor(new Date(lo)).getTime() === utcDay.floor(new Date(hi)).getTime() ? utcFormat('%-d %b %Y')(new Date(lo)) : null;
+	return { scale, ticks: scale.ticks(count).map((d) => ({ value: d.getTime(), label: utcTickLabel(d) })), day };
 }
 
 /** "2026-03-04 09:12 UTC" */
