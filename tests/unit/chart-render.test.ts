@@ -42,3 +42,11 @@ describe('the ledger chart as rendered', () => {
 		expect(body).toContain('<title>#2 given to aliquot, 2026-03-10 14:05 UTC: 2154.000 mg ± 2.31 µg</title>');
 	});
 });
+
+describe('the ledger chart of an empty ledger', () => {
+	it('says so instead of drawing axes', () => {
+		const { body } = render(LedgerChart, { props: { entries: [] } });
+		expect(body).toContain('The ledger has no entries yet.');
+		expect(body).not.toContain('<svg');
+	});
+});
