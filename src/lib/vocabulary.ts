@@ -27,19 +27,23 @@ export const LEDGER_LABELS: Record<string, string> = {
 	reweighed: 'reweighed'
 };
 
-/** Tailwind classes of the small state badge. */
+/**
+ * Tailwind classes of the small state badge: the state's tint and words from the one palette
+ * (src/lib/components/palette.ts), the same tone as the state's part in the mass-share chart.
+ * Whole class names, so Tailwind finds them.
+ */
+export const STATE_BADGE: Record<string, string> = {
+	stored: 'bg-state-stored-tint text-state-stored-text',
+	earmarked: 'bg-state-earmarked-tint text-state-earmarked-text',
+	in_transit: 'bg-state-in-transit-tint text-state-in-transit-text',
+	on_loan: 'bg-state-on-loan-tint text-state-on-loan-text',
+	consumed: 'bg-state-consumed-tint text-state-consumed-text',
+	lost: 'bg-state-lost-tint text-state-lost-text'
+};
+
+/** Tailwind classes of the small state badge (an unknown state reads as a loss, to be looked at). */
 export function stateBadge(state: string): string {
-	switch (state) {
-		case 'stored':
-			return 'bg-tarn-100 text-tarn-900';
-		case 'earmarked':
-			return 'bg-ochre-100 text-ochre-700';
-		case 'in_transit':
-		case 'on_loan':
-			return 'bg-basalt-100 text-basalt-800';
-		default:
-			return 'bg-alert-100 text-alert-700';
-	}
+	return STATE_BADGE[state] ?? 'bg-loss-tint text-loss-text';
 }
 
 /** "± 1.6 µg" for an expanded uncertainty, or a note that the mass was not weighed here. */
