@@ -87,6 +87,8 @@ describe('two app instances on one database and one bucket', () => {
 		const reg = await onA('POST', '/api/items', { collection: 'HLF', massUg, description: 'parent split through two instances' });
 		expect(reg.status).toBe(201);
 		const parent = reg.body.item.code;
+		// instance B computes and keeps the parent's lineage before the splits
+		expect((await onB('GET', `/api/items/${parent}/lineage`)).body.descendants).toEqual([]);
 		// 60 splits of 1 000 µg and 1 500 µg, alternately through each instance: together far more than the parent holds
 		const asks = Array.from({ length: 60 }, (_, k) => ({ via: k % 2 ? 'b' : 'a', massUg: k % 3 ? 1_000 : 1_500 }));
 		const answers = await Promise.all(asks.map((q) => (q.via === 'a' ? onA : onB)('POST', `/api/items/${parent}/splits`, { children: [{ massUg: q.massUg }] })));
@@ -106,6 +108,9 @@ describe('two app instances on one database and one bucket', () => {
 		expect(item.massUg).toBe(massUg - sum);
 		expect(item.massUg).toBeLessThan(1_000);
 		expect(item.budget).toMatchObject({ childrenInitialUg: sum, remainingUg: massUg - sum, children: admitted.length, balanced: true });
+		// and what B kept is not served stale: the children split through A show there too
+		const codes = answers.filter((r) => r.status === 201).map((r) => r.body.children[0].code).sort();
+		expect((await onB('GET', `/api/items/${parent}/lineage`)).body.descendants.map((d: { code: string }) => d.code).sort()).toEqual(codes);
 	});
 
 	it('one instance killed with SIGKILL mid-burst: no acknowledged split lost, the trail verifies, queued mail goes out once', async () => {
