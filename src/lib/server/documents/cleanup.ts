@@ -1,7 +1,7 @@
 import { DeleteObjectsCommand, ListObjectsV2Command } from '@aws-sdk/client-s3';
 import { QueryTypes, type Sequelize } from 'sequelize';
 import { config } from '../config';
-import { defaultTarget, type StorageTarget } from './store';
+import { defaultTarget, type StorageTarget } from './objects';
 import type { Job } from '../jobs';
 
 export interface CleanupResult {
