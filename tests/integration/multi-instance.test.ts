@@ -8,6 +8,7 @@ import { readMailbox } from '../../fakes/mailbox.mjs';
 import { models } from '../../src/lib/server/models';
 import { closeDb } from '../../src/lib/server/db';
 import { enqueueMail } from '../../src/lib/server/outbox';
+import { JOB_LOCK_CLASS, runExclusive } from '../../src/lib/server/jobs';
 
 /**
  * Two app instances, as a facility runs them behind a reverse proxy: the production build twice,
@@ -49,8 +50,23 @@ async function sql<T = any>(text: string, values: unknown[] = []): Promise<T[]> 
 	return (await asSuperuser(DB, (c) => c.query(text, values))).rows as T[];
 }
 
+/** Which instance (by its PGAPPNAME) holds the mail sender's job lock just now, if any. */
+async function outboxHolder(): Promise<string | null> {
+	const rows = await sql<{ application_name: string }>(
+		`SELECT a.application_name FROM pg_locks l JOIN pg_stat_activity a ON a.pid = l.pid
+		 WHERE l.locktype = 'advisory' AND l.granted AND l.classid = $1::bigint::oid AND l.objsubid = 2
+		   AND l.objid = ((hashtext('mail-outbox')::bigint + 4294967296) % 4294967296)::oid`,
+		[JOB_LOCK_CLASS]
+	);
+	return rows[0]?.application_name ?? null;
+}
+
 beforeAll(async () => {
-	[a, b] = await Promise.all([startApp(PORT_A, { REGOLOG_INSTANCE: 'instance-a' }), startApp(PORT_B, { REGOLOG_INSTANCE: 'instance-b' })]);
+	// PGAPPNAME names each instance's connections in pg_stat_activity
+	[a, b] = await Promise.all([
+		startApp(PORT_A, { REGOLOG_INSTANCE: 'instance-a', PGAPPNAME: 'regolog-instance-a' }),
+		startApp(PORT_B, { REGOLOG_INSTANCE: 'instance-b', PGAPPNAME: 'regolog-instance-b' })
+	]);
 }, 90_000);
 
 afterAll(async () => {
@@ -122,25 +138,39 @@ describe('two app instances on one database and one bucket', () => {
 			expect(r.status).toBe(201);
 			parents.push(r.body.item.code);
 		}
-		// mail queued now, due at once: every instance's sender races for it during the burst
+		// mail queued now, due at once: every instance's sender races for it during the burst. It is
+		// queued under the sender's own lock, so that no sender starts on it before instance B is
+		// nudged: an invitation sent through B makes B's sender start a round at once, most often
+		// ahead of the other instances' timers (who wins is still up to the race)
 		const label = `two-instance-${randomBytes(4).toString('hex')}`;
 		const MAILS = 150;
 		const sq = models();
-		const mailIds = await sq.transaction(async (t) => {
-			const ids: number[] = [];
-			for (let i = 0; i < MAILS; i++) ids.push(await enqueueMail(t, { to: `burst-${i}@brightwater.example`, subject: `${label} ${i}`, text: 'sent once, whichever instance sends it', kind: 'test' }));
-			return ids;
-		});
-		// the burst starts once the senders are at work on that mail
-		for (let i = 0; i < 100; i++) {
-			const [{ sent }] = await sql(`SELECT count(*)::int AS sent FROM mail_outbox WHERE id = ANY($1::bigint[]) AND status = 'sent'`, [mailIds]);
-			if (sent > 0) break;
-			await wait(50);
+		let mailIds: number[] = [];
+		for (let i = 0; i < 200 && !mailIds.length; i++) {
+			const run = await runExclusive('mail-outbox', () =>
+				sq.transaction(async (t) => {
+					const ids: number[] = [];
+					for (let k = 0; k < MAILS; k++) ids.push(await enqueueMail(t, { to: `burst-${k}@brightwater.example`, subject: `${label} ${k}`, text: 'sent once, whichever instance sends it', kind: 'test' }));
+					return ids;
+				})
+			);
+			if (run.ran) mailIds = run.value;
+			else await wait(50);
+		}
+		expect(mailIds).toHaveLength(MAILS);
+		const admin = { cookie: null as string | null };
+		expect((await at(b!, admin)('POST', '/api/auth/sign-in', { email: DEMO.admin, password: DEMO_PASSWORD })).status).toBe(200);
+		expect((await at(b!, admin)('POST', '/api/users', { email: `${label}@brightwater.example`, name: 'Invited during the burst', role: 'auditor' })).status).toBe(201);
+		let senderBeforeBurst: string | null = null;
+		for (let i = 0; i < 100 && senderBeforeBurst === null; i++) {
+			senderBeforeBurst = await outboxHolder();
+			if (senderBeforeBurst === null) await wait(30);
 		}
 
 		const acknowledged: { via: 'a' | 'b'; parent: string; splitId: string; children: string[]; massUg: number }[] = [];
 		const lost: number[] = [];
 		let killedAfter = -1;
+		let senderAtKill: string | null = null;
 		const BURST = 240;
 		await Promise.all(
 			Array.from({ length: BURST }, async (_, k) => {
@@ -153,6 +183,7 @@ describe('two app instances on one database and one bucket', () => {
 						acknowledged.push({ via, parent, splitId: r.body.splitId, children: r.body.children.map((c: { code: string }) => c.code), massUg: 1_000 });
 						if (killedAfter < 0 && acknowledged.filter((x) => x.via === 'b').length >= 30) {
 							killedAfter = acknowledged.length;
+							senderAtKill = await outboxHolder();
 							b!.child.kill('SIGKILL');
 						}
 					} else expect(r.status, JSON.stringify(r.body)).toBe(409);
@@ -202,6 +233,9 @@ describe('two app instances on one database and one bucket', () => {
 		for (const m of kept) bySubject.set(m.subject, (bySubject.get(m.subject) ?? 0) + 1);
 		expect([...bySubject.values()].filter((n) => n !== 1)).toEqual([]);
 		expect(bySubject.size).toBe(MAILS);
-		console.log(`[multi-instance] burst of ${BURST} splits: ${acknowledged.length} acknowledged (${acknowledged.filter((x) => x.via === 'b').length} by the killed instance), ${lost.length} cut off by the kill; ${MAILS} queued messages each delivered once`);
+		console.log(
+			`[multi-instance] burst of ${BURST} splits: ${acknowledged.length} acknowledged (${acknowledged.filter((x) => x.via === 'b').length} by the killed instance), ${lost.length} cut off by the kill; ` +
+				`mail sender before the burst: ${senderBeforeBurst || 'the tests’ own server'}, at the kill: ${senderAtKill === null ? 'none' : senderAtKill || 'the tests’ own server'}; ${MAILS} queued messages each delivered once`
+		);
 	}, 120_000);
 });
