@@ -1,8 +1,9 @@
 import { error, redirect, type Handle, type HandleServerError, type ServerInit } from '@sveltejs/kit';
 import { building } from '$app/environment';
-import { startOutboxSender } from '$lib/server/outbox';
+import { outboxJob } from '$lib/server/outbox';
 import { remindOverdueUsage } from '$lib/server/custody/usage';
-import { startDocumentCleanup } from '$lib/server/documents/cleanup';
+import { documentCleanupJob } from '$lib/server/documents/cleanup';
+import { startJobs } from '$lib/server/jobs';
 import { randomUUID } from 'node:crypto';
 import { lucia } from '$lib/server/auth/lucia';
 import { decide } from '$lib/server/auth/access';
@@ -165,14 +166,15 @@ export const handleError: HandleServerError = ({ error, event, status }) => {
 };
 
 export const init: ServerInit = async () => {
-	// The mail outbox is drained in the background; a mail outage only delays delivery.
+	// Background jobs, each on one instance at a time however many serve the database (jobs.ts): the
+	// mail outbox drained every few seconds (a mail outage only delays delivery), overdue usage
+	// reports reminded once (checked hourly), and objects left in the bucket without a record (a
+	// failed save) removed after a grace period.
 	if (!building) {
-		startOutboxSender();
-		// Overdue usage reports are reminded once, checked hourly.
-		const remind = () => remindOverdueUsage(models()).catch((e) => console.error('[regolog] usage reminders failed:', (e as Error).message));
-		setInterval(remind, 3600_000).unref();
-		setTimeout(remind, 10_000).unref();
-		// objects left in the bucket without a record (a failed save) are removed after a grace period
-		startDocumentCleanup(models);
+		startJobs([
+			outboxJob,
+			{ name: 'usage-reminders', everyMs: 3600_000, firstAfterMs: 10_000, shared: true, run: () => remindOverdueUsage(models()) },
+			documentCleanupJob(models)
+		]);
 	}
 };

@@ -3,6 +3,7 @@ import type { Transporter } from 'nodemailer';
 import { models } from './models';
 import { mailer } from './mail';
 import { config } from './config';
+import { jobScheduled, kickJob, type Job } from './jobs';
 
 export interface OutgoingMail {
 	to: string;
@@ -32,7 +33,7 @@ export async function enqueueMail(t: Transaction, m: OutgoingMail, opts: { notBe
 		{ type: QueryTypes.SELECT, replacements: { ...m, html: m.html ?? null, notBefore: opts.notBefore ?? new Date() }, transaction: t }
 	);
 	// In the app (where the sender runs), try to send as soon as the change has committed.
-	if (!opts.notBefore && timer) t.afterCommit(() => void kickOutbox());
+	if (!opts.notBefore && jobScheduled(outboxJob.name)) t.afterCommit(() => void kickOutbox());
 	return row.id;
 }
 
@@ -43,11 +44,26 @@ interface Due {
 	body_text: string;
 	body_html: string | null;
 	attempts: number;
+	created_ms: number;
 }
 
 /**
- * Sends due messages. Each is claimed with FOR UPDATE SKIP LOCKED, so several senders never
- * send one message twice; a failure schedules the next attempt with backoff. Messages never tried
+ * The Message-ID of an outbox row: the same on every attempt, so that a relay or a mailbox that
+ * receives one message twice (the one case left: an instance killed between the relay's
+ * acceptance and its own commit) can tell it is a repeat.
+ */
+export function outboxMessageId(id: number, createdMs: number): string {
+	const domain = /@([^>\s]+)>?\s*$/.exec(config.mail.from)?.[1] ?? 'regolog.invalid';
+	return `<regolog.${id}.${createdMs}@${domain}>`;
+}
+
+/**
+ * Sends due messages. Each is claimed with FOR UPDATE SKIP LOCKED inside the transaction that
+ * sends it, so several senders (on one instance or several) never send one message twice, and a
+ * sender that dies mid-send loses its connection and with it the claim: the message is still
+ * queued for the next sender. The row is marked sent before the relay is asked and committed as
+ * soon as the relay accepts, so after the relay's acceptance only the COMMIT is left to say; a
+ * failure overwrites the mark and schedules the next attempt with backoff. Messages never tried
  * go first, so while the relay is down a new message still gets its first attempt (and its error on
  * record) at once instead of waiting behind older retries. `onlyIds` sends
  * just those queued messages, due or not (an operator's "send now").
@@ -60,29 +76,30 @@ export async function deliverDue(opts: { transport?: Transporter; limit?: number
 	for (let i = 0; i < (opts.limit ?? 50); i++) {
 		const done = await sequelize.transaction(async (t) => {
 			const rows = await sequelize.query<Due>(
-				`SELECT id, to_address, subject, body_text, body_html, attempts FROM mail_outbox
+				`SELECT id, to_address, subject, body_text, body_html, attempts, (extract(epoch FROM created_at) * 1000)::bigint AS created_ms FROM mail_outbox
 				 WHERE status = 'queued' AND ${opts.onlyIds ? 'id IN (:ids)' : 'next_attempt_at <= now()'}
 				 ORDER BY attempts, next_attempt_at, id LIMIT 1 FOR UPDATE SKIP LOCKED`,
 				{ type: QueryTypes.SELECT, transaction: t, replacements: { ids: opts.onlyIds ?? [] } }
 			);
 			if (!rows.length) return null;
 			const m = rows[0];
+			await sequelize.query(`UPDATE mail_outbox SET status = 'sent', sent_at = now(), attempts = attempts + 1, last_error = NULL WHERE id = :id`, {
+				replacements: { id: m.id }, transaction: t
+			});
 			try {
 				await transport.sendMail({
 					from: config.mail.from,
 					to: m.to_address,
 					subject: m.subject,
 					text: m.body_text,
-					html: m.body_html ?? undefined
-				});
-				await sequelize.query(`UPDATE mail_outbox SET status = 'sent', sent_at = now(), attempts = attempts + 1, last_error = NULL WHERE id = :id`, {
-					replacements: { id: m.id }, transaction: t
+					html: m.body_html ?? undefined,
+					messageId: outboxMessageId(m.id, m.created_ms)
 				});
 				return 'sent' as const;
 			} catch (e) {
 				const attempts = m.attempts + 1;
 				await sequelize.query(
-					`UPDATE mail_outbox SET attempts = :attempts, last_error = :err,
+					`UPDATE mail_outbox SET attempts = :attempts, last_error = :err, sent_at = NULL,
 					   next_attempt_at = now() + make_interval(secs => :delay),
 					   status = CASE WHEN :attempts >= :max THEN 'failed' ELSE 'queued' END
 					 WHERE id = :id`,
@@ -103,22 +120,10 @@ export async function deliverDue(opts: { transport?: Transporter; limit?: number
 	return { sent, failed };
 }
 
-let running: Promise<unknown> | null = null;
-let timer: ReturnType<typeof setInterval> | null = null;
+/** The mail sender as a background job: a round every few seconds, one instance at a time. */
+export const outboxJob: Job = { name: 'mail-outbox', everyMs: 3000, run: () => deliverDue() };
 
-/** Runs one delivery round unless one is already running. */
+/** Runs one delivery round unless one is already running (here or on another instance). */
 export function kickOutbox(): Promise<unknown> {
-	if (!running) {
-		running = deliverDue()
-			.catch((e) => console.error('[regolog] mail outbox round failed:', (e as Error).message))
-			.finally(() => (running = null));
-	}
-	return running;
-}
-
-/** The app's background sender: a round every few seconds. */
-export function startOutboxSender(intervalMs = 3000): void {
-	if (timer) return;
-	timer = setInterval(() => void kickOutbox(), intervalMs);
-	timer.unref?.();
+	return kickJob(outboxJob);
 }

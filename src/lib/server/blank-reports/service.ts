@@ -8,7 +8,9 @@ import { trailActor, type Who } from '../registry/common';
 import { computeReport, type ReportResults, type RoleRow } from '../../domain/blank-report';
 import { DEFAULT_BLANK_SETTINGS } from '../../domain/blanks';
 import { csvProblem, parseBlankControlCsv, type CsvIssue } from './parse';
-import { documentView, megabytes, storeDocument, type DocumentRow, type StorageTarget } from '../documents/store';
+import { documentView, storeDocument, type DocumentRow } from '../documents/store';
+import { megabytes } from '../documents/types';
+import type { StorageTarget } from '../documents/objects';
 
 export interface NewReport {
 	title: string;

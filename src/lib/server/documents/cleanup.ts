@@ -1,7 +1,8 @@
 import { DeleteObjectsCommand, ListObjectsV2Command } from '@aws-sdk/client-s3';
 import { QueryTypes, type Sequelize } from 'sequelize';
 import { config } from '../config';
-import { defaultTarget, type StorageTarget } from './store';
+import { defaultTarget, type StorageTarget } from './objects';
+import type { Job } from '../jobs';
 
 export interface CleanupResult {
 	/** objects looked at under documents/ */
@@ -55,16 +56,21 @@ export async function cleanupOrphans(sq: Sequelize, opts: { target?: StorageTarg
 	return result;
 }
 
-let timer: ReturnType<typeof setInterval> | null = null;
-
-/** Runs the clean-up now and then every REGOLOG_CLEANUP_EVERY_MINUTES in the server; a failed run only logs. */
-export function startDocumentCleanup(sq: () => Sequelize): void {
-	if (timer) return;
-	const run = () =>
-		cleanupOrphans(sq())
-			.then((r) => r.removed.length && console.log(`[regolog] document clean-up removed ${r.removed.length} objects without a record`))
-			.catch((e) => console.error('[regolog] document clean-up failed:', (e as Error)?.message));
-	timer = setInterval(run, config.documents.cleanupEveryMinutes * 60_000);
-	timer.unref?.();
-	setTimeout(run, 30_000).unref?.();
+/**
+ * The clean-up as a background job: every REGOLOG_CLEANUP_EVERY_MINUTES on one instance of all
+ * (the schedule is shared), first half a minute after start. A run cut short leaves objects for
+ * the next; it never removes one whose record exists, since it asks again just before removing.
+ */
+export function documentCleanupJob(sq: () => Sequelize): Job {
+	return {
+		name: 'document-cleanup',
+		everyMs: config.documents.cleanupEveryMinutes * 60_000,
+		firstAfterMs: 30_000,
+		shared: true,
+		run: async () => {
+			const r = await cleanupOrphans(sq());
+			if (r.removed.length) console.log(`[regolog] document clean-up removed ${r.removed.length} objects without a record`);
+			return r;
+		}
+	};
 }

@@ -6,7 +6,7 @@ import { formatMg } from '../../domain/mass';
 import { ApiProblem } from '../api';
 import { preparedQuery } from '../prepared';
 import { trailRowOf, trailStatement } from '../trail';
-import { checkSplitSession } from '../handling/sessions';
+import { checkSplitSession } from '../handling/split-sessions';
 import { balanceForWeighing, type BalanceView } from './balances';
 import { findItem, micrograms, shortText, trailActor, type ItemRow, type Who } from './common';
 

@@ -3,7 +3,8 @@ import { ApiProblem, endpoint } from '$lib/server/api';
 import { models } from '$lib/server/models';
 import { whoFrom } from '$lib/server/registry/common';
 import { findSubject, subjectType } from '$lib/server/documents/subjects';
-import { DOCUMENT_KINDS, documentView, listDocuments, storeDocument, type DocumentKind } from '$lib/server/documents/store';
+import { documentView, listDocuments, storeDocument } from '$lib/server/documents/store';
+import { DOCUMENT_KINDS, type DocumentKind } from '$lib/server/documents/types';
 import { listReports } from '$lib/server/blank-reports/service';
 import type { RequestHandler } from './$types';
 

@@ -1,7 +1,8 @@
 import { json } from '@sveltejs/kit';
 import { endpoint, readJson, readQuery } from '$lib/server/api';
 import { db } from '$lib/server/db';
-import { listQuery, listSessions, recordSession, sessionInput } from '$lib/server/handling/sessions';
+import { listQuery, listSessions } from '$lib/server/handling/sessions';
+import { recordSession, sessionInput } from '$lib/server/handling/record';
 import { whoFrom } from '$lib/server/registry/common';
 import type { RequestHandler } from './$types';
 

@@ -2,7 +2,7 @@ import { redirect } from '@sveltejs/kit';
 import { QueryTypes } from 'sequelize';
 import { db } from '$lib/server/db';
 import { formAction, formValues } from '$lib/server/forms';
-import { recordSession, sessionInput } from '$lib/server/handling/sessions';
+import { recordSession, sessionInput } from '$lib/server/handling/record';
 import { parseForm } from '$lib/server/forms';
 import { whoFrom } from '$lib/server/registry/common';
 import type { Actions, PageServerLoad } from './$types';

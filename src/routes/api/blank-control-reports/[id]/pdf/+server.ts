@@ -3,7 +3,7 @@ import { models } from '$lib/server/models';
 import { whoFrom } from '$lib/server/registry/common';
 import { getReport } from '$lib/server/blank-reports/service';
 import { reportPdf } from '$lib/server/blank-reports/pdf';
-import { attachmentHeader } from '$lib/server/documents/store';
+import { attachmentHeader } from '$lib/server/documents/download';
 import type { RequestHandler } from './$types';
 
 export const GET: RequestHandler = endpoint(async ({ params, locals }) => {

@@ -1,7 +1,8 @@
 import { endpoint, pathId } from '$lib/server/api';
 import { models } from '$lib/server/models';
 import { whoFrom } from '$lib/server/registry/common';
-import { downloadResponse, findDocument } from '$lib/server/documents/store';
+import { findDocument } from '$lib/server/documents/store';
+import { downloadResponse } from '$lib/server/documents/download';
 import type { RequestHandler } from './$types';
 
 /** The file itself, streamed through the server after the visibility check, verified against its SHA-256. */

@@ -1,7 +1,7 @@
 import { json } from '@sveltejs/kit';
 import { endpoint } from '$lib/server/api';
 import { db } from '$lib/server/db';
-import { itemExposure } from '$lib/server/handling/sessions';
+import { itemExposure } from '$lib/server/handling/exposure';
 import { whoFrom } from '$lib/server/registry/common';
 import type { RequestHandler } from './$types';
 

@@ -1,7 +1,7 @@
 import { json } from '@sveltejs/kit';
 import { endpoint, pathId, readJson } from '$lib/server/api';
 import { db } from '$lib/server/db';
-import { attachInput, attachSession } from '$lib/server/handling/sessions';
+import { attachInput, attachSession } from '$lib/server/handling/split-sessions';
 import { whoFrom } from '$lib/server/registry/common';
 import type { RequestHandler } from './$types';
 
