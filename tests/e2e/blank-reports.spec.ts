@@ -44,7 +44,7 @@ test('a lab member uploads the demo blank-control table with the progress shown,
 	await expect(ee).toContainText('semi-quantitative');
 	await expect(ee).toContainText('not quantifiable');
 	await expect(ee).toContainText('weak limits');
-	await expect(ee).toContainText('(Holm, p̃ =');
+	await expect(ee).toContainText('(Holm, p̃ = 0.0');
 	await expect(page.getByTestId('ee-why').first()).toContainText(/Quoted|Not quantifiable|Semi-quantitative/);
 	await expect(page.getByTestId('limits-valine')).toContainText('weak: ≈');
 	await expect(page.getByTestId('method-notes')).toContainText('Welch–Satterthwaite');

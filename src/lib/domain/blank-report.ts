@@ -347,7 +347,7 @@ export function verdictOf(ee: EnantiomericExcess | null): { unadjusted: string; 
 	const word = (sig: boolean) => (sig ? `significant ${ee.excess}-excess` : 'no excess shown');
 	const unadjusted = word(ee.significant);
 	if (!ee.adjusted || ee.adjusted.method === 'none') return { unadjusted, adjusted: 'not adjusted' };
-	return { unadjusted, adjusted: `${word(ee.adjusted.significant)} (${ee.adjusted.method === 'holm' ? 'Holm' : 'B–H'}, p̃ = ${ee.adjusted.p < 0.001 ? '< 0.001' : ee.adjusted.p.toFixed(3)})` };
+	return { unadjusted, adjusted: `${word(ee.adjusted.significant)} (${ee.adjusted.method === 'holm' ? 'Holm' : 'B–H'}, p̃ ${ee.adjusted.p < 0.001 ? '< 0.001' : `= ${ee.adjusted.p.toFixed(3)}`})` };
 }
 
 /** The Monte-Carlo run of an ee and its §8 check in one sentence; empty when none ran. */
@@ -355,7 +355,9 @@ export function mcSentence(ee: EnantiomericExcess | null): string {
 	const m = ee?.mc;
 	if (!m) return '';
 	const v = m.validation;
-	return `Monte-Carlo (${m.trials.toLocaleString('en')} trials): ${formatInterval(m)}${v ? `; first-order endpoints differ by ${formatEe(v.dLow)} and ${formatEe(v.dHigh)}, δ = ${formatEe(v.delta)}: ${v.validated ? 'validated' : 'not validated'}` : ''}.`;
+	// the differences are printed one digit finer than ee, so they can be read against δ = 0.05 %
+	const fine = (x: number) => `${(x * 100).toFixed(2)} %`;
+	return `Monte-Carlo (${m.trials.toLocaleString('en')} trials): ${formatInterval(m)}${v ? `; first-order endpoints differ from it by ${fine(v.dLow)} and ${fine(v.dHigh)}, tolerance δ = ${fine(v.delta)}: first-order ${v.validated ? 'validated' : 'not validated'}` : ''}.`;
 }
 
 /** One sentence on the enantiomeric excess, or null when there is none to speak of. */
@@ -410,7 +412,7 @@ export function methodNotes(stored: Partial<BlankSettings> = DEFAULT_BLANK_SETTI
 		`A replicate mean's standard uncertainty combines, never replaces: u² = ū_stated² + s²/n. The stated per-measurement uncertainty (root mean square of the rows' uncertainties) is a Type B component taken as known (ν = ∞) and is not divided by √n, because part of it (calibration, response factors) is common to all replicates; the scatter of the mean s/√n is a Type A component with ν = n − 1 (${SOURCES.gum}, 4.2.3 and 4.3). This is conservative when the stated uncertainty is pure repeatability. Identical replicates with no stated uncertainty give no uncertainty rather than zero.`,
 		`Blank-corrected value x − b̄ with u² = u_x² + s_b²·(1 + 1/n_b): the blank mean's uncertainty s_b²/n_b and the sample's own blank, one more draw from the blank population, s_b². This is Currie's σ₀² and so treats s_b exactly as the detection limits do. Inputs are taken as independent (${SOURCES.gum}, 5.1.2); the L and D blanks are taken as independent of each other.`,
 		`Effective degrees of freedom by Welch–Satterthwaite over every component (${SOURCES.gum}, G.4.1), truncated to the whole number below; expanded uncertainty U = k·u with k = t₉₅(ν_eff), Student's t from the jstat library (${SOURCES.gum}, G.3–G.4, Table G.2). Every interval is a 95 % interval.`,
-		`Classical limits LOD = b̄ + 3·s_b and LOQ = b̄ + 10·s_b, the common k = 3 / k = 10 convention (${SOURCES.classical}). Currie's limits in the blank-corrected domain: σ₀ = s_b·√(1 + 1/n_b), critical level L_C = t₀.₉₅(ν)·σ₀, detection limit L_D = δ·σ₀ with δ the non-centrality of the non-central t for α = β = ${ALPHA} and ν = n_b − 1, quantification limit L_Q = 10·σ₀ (${SOURCES.currie}). Both are shown; ${s.limits === 'currie' ? 'Currie’s' : 'the classical'} limits decide "below LOD" and "below LOQ" in this report. A blank-corrected value ≤ 0 is below LOD whatever the limits.`,
+		`Classical limits LOD = b̄ + 3·s_b and LOQ = b̄ + 10·s_b (${SOURCES.classical}). Currie's limits in the blank-corrected domain: σ₀ = s_b·√(1 + 1/n_b), critical level L_C = t₀.₉₅(ν)·σ₀, detection limit L_D = δ·σ₀ with δ the non-centrality of the non-central t for α = β = ${ALPHA} and ν = n_b − 1, quantification limit L_Q = 10·σ₀ (${SOURCES.currie}), never taken below L_D (with two blanks δ ≈ 12.5). Both are shown; ${s.limits === 'currie' ? 'Currie’s' : 'the classical'} limits decide "below LOD" and "below LOQ" in this report. A blank-corrected value ≤ 0 is below LOD whatever the limits.`,
 		`Fewer than ${s.minBlanks} blank replicates (a setting), or blanks without scatter: the limits are weak, printed in words, and every decision on them says so; with 2–4 blanks the real false-detection rate of "x > b̄ + 3·s_b" is many times the nominal one. One blank: no limit, no blank scatter, no ee.`,
 		`Enantiomeric excess ee = (L − D)/(L + D) on blank-corrected abundances (IUPAC Gold Book, "enantiomer excess"), u_ee = 2·√(D²·u_L² + L²·u_D²)/(L + D)², first order. An ee is quoted only when both enantiomers are above their LOD. Below LOD (or ≤ 0): "not quantifiable", with the detected enantiomer alone and, from the other's detection limit, a lower bound on the excess. Between LOD and LOQ: semi-quantitative, quoted only with its Monte-Carlo interval. An excess is significant when its 95 % interval excludes zero.`,
 		`Monte-Carlo propagation after GUM Supplement 1 (${SOURCES.mc}) for every ee with an enantiomer below twice its LOQ: ${MC_TRIALS.toLocaleString('en')} trials, each input its estimate plus a Gaussian (stated components) or scaled t (Type A components, ν = n − 1) draw, a seeded generator (the same table gives the same interval), the probabilistically symmetric 95 % interval. The first-order interval is validated as in ${SOURCES.mc} §8: both endpoints within δ = ${(EE_DELTA * 100).toFixed(2)} % (half a unit of the printed digit); when it fails, the Monte-Carlo interval is used.`,
