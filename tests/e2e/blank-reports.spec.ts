@@ -1,4 +1,5 @@
 import { test, expect, type Page } from '@playwright/test';
+import AxeBuilder from '@axe-core/playwright';
 
 async function signInAsFennick(page: Page, next: string) {
 	await page.goto(`/sign-in?next=${next}`);
@@ -33,9 +34,23 @@ test('a lab member uploads the demo blank-control table with the progress shown,
 	await expect(flags).toContainText('possible terrestrial contamination');
 	await expect(flags).toContainText('below the detection limit');
 	await expect(flags).toContainText('blank-dominated');
-	await expect(page.getByTestId('limitations')).toContainText('LOD cannot be estimated from one blank.');
+	await expect(page.getByTestId('limitations')).toContainText('No detection or quantification limit can be estimated from one blank.');
 	await expect(page.getByTestId('blank-chart').first()).toBeVisible();
 	await expect(page.getByTestId('ee-chart')).toBeVisible();
+
+	// every ee says whether it is quoted and why, with ν_eff, k, the interval and both verdicts
+	const ee = page.getByTestId('ee-table');
+	await expect(ee).toContainText('ν_eff');
+	await expect(ee).toContainText('semi-quantitative');
+	await expect(ee).toContainText('not quantifiable');
+	await expect(ee).toContainText('weak limits');
+	await expect(ee).toContainText('(Holm, p̃ = 0.0');
+	await expect(page.getByTestId('ee-why').first()).toContainText(/Quoted|Not quantifiable|Semi-quantitative/);
+	await expect(page.getByTestId('limits-valine')).toContainText('weak: ≈');
+	await expect(page.getByTestId('method-notes')).toContainText('Welch–Satterthwaite');
+	await expect(page.getByTestId('report-settings')).toContainText('Holm');
+	const axe = await new AxeBuilder({ page }).withTags(['wcag2a', 'wcag2aa', 'wcag21a', 'wcag21aa']).analyze();
+	expect(axe.violations.map((v) => v.id)).toEqual([]);
 });
 
 test('a bad table is refused on the upload page with its row and column', async ({ page }) => {

@@ -7,7 +7,7 @@ import { demoReportItems } from '../helpers/documents';
 import { pdftext } from '../helpers/pdf';
 import { db, closeDb } from '../../src/lib/server/db';
 import { demoCsv } from '../../src/lib/server/blank-reports/demo';
-import { COLUMNS } from '../../src/lib/domain/blank-report';
+import { COLUMNS, METHOD_VERSION } from '../../src/lib/domain/blank-report';
 import { LIMITATIONS } from '../../src/lib/domain/blanks';
 import { mistype } from '../helpers/registry';
 
@@ -16,6 +16,7 @@ let fennick: Client;
 let marrow: Client;
 let sample: string;
 let blank: string;
+let witness: string;
 const HEADER = COLUMNS.join(',');
 
 const counts = async () =>
@@ -70,51 +71,108 @@ async function refused(body: string | Buffer, status: number, where: RegExp, cod
 beforeAll(async () => {
 	fennick = await signedIn(DEMO.fennick);
 	marrow = await signedIn(DEMO.marrow);
-	({ sample, blank } = await demoReportItems(fennick));
+	({ sample } = await demoReportItems(fennick));
+	// the demo's two blank items, told apart by their descriptions (the kind of blank is read from there)
+	const byStart = async (start: string) =>
+		(await sq.query<{ code: string }>(`SELECT code FROM items WHERE kind = 'blank' AND description LIKE :d LIMIT 1`, { type: QueryTypes.SELECT, replacements: { d: `${start}%` } }))[0].code;
+	blank = await byStart('Procedural blank: baked fused-silica vial');
+	witness = await byStart('Witness coupon: baked aluminium foil');
 });
 afterAll(() => closeDb());
 
 describe('blank-control reports: a good table', () => {
 	it('computes the demo table, stores the original file beside the results and links the items', async () => {
-		const csv = demoCsv(sample, blank);
+		const csv = demoCsv(sample, blank, witness);
 		const r = await send(fennick, csv, 'demo again');
 		expect(r.status).toBe(201);
 		const rep = r.body.report;
-		expect(rep.items).toEqual(expect.arrayContaining([expect.objectContaining({ code: sample, role: 'sample' }), expect.objectContaining({ code: blank, role: 'blank' })]));
+		expect(rep.items).toEqual(expect.arrayContaining([expect.objectContaining({ code: sample, role: 'sample' }), expect.objectContaining({ code: blank, role: 'blank' }), expect.objectContaining({ code: witness, role: 'blank' })]));
 		expect(rep.document.sizeBytes).toBe(Buffer.byteLength(csv));
 		const file = await fetch(BASE + rep.document.href, { headers: { cookie: fennick.cookie! } });
 		expect(await file.text()).toBe(csv);
 
-		const ala = rep.results.analytes.find((a: { analyte: string }) => a.analyte === 'alanine');
+		const find = (name: string) => rep.results.analytes.find((a: { analyte: string }) => a.analyte === name);
+		const ala = find('alanine');
 		const blankL = [2.1, 2.6, 1.9, 2.4];
-		// cross-checked with simple-statistics; LOD = b̄ + 3·s_b, LOQ = b̄ + 10·s_b (Currie, Pure Appl. Chem. 67 (1995) 1699)
+		// cross-checked with simple-statistics; classical LOD = b̄ + 3·s_b, LOQ = b̄ + 10·s_b (the k = 3
+		// convention, Long & Winefordner, Anal. Chem. 55 (1983) 712A); Currie's σ₀ = s_b·√(1 + 1/n)
+		// (Pure Appl. Chem. 67 (1995) 1699)
 		const L = ala.blanks.find((b: { key: string }) => b.key === 'L').stats;
 		expect(L.mean).toBeCloseTo(ssMean(blankL), 12);
 		expect(L.sd).toBeCloseTo(ssSd(blankL), 12);
-		expect(L.lod).toBeCloseTo(ssMean(blankL) + 3 * ssSd(blankL), 12);
-		expect(L.loq).toBeCloseTo(ssMean(blankL) + 10 * ssSd(blankL), 12);
+		expect(L.classical.lod).toBeCloseTo(ssMean(blankL) + 3 * ssSd(blankL), 12);
+		expect(L.classical.loq).toBeCloseTo(ssMean(blankL) + 10 * ssSd(blankL), 12);
+		expect(L.currie.sigma0).toBeCloseTo(ssSd(blankL) * Math.sqrt(1 + 1 / 4), 12);
+		// the procedural blank corrects; the witness coupon is shown on its own
+		expect(ala.blanks[0].kinds).toEqual(['procedural_blank']);
+		expect(ala.blankKinds.map((b: { kind: string; used: boolean }) => [b.kind, b.used])).toEqual(expect.arrayContaining([['procedural_blank', true], ['witness_coupon', false]]));
+		expect(ala.blankNote).toMatch(/witness coupons are shown on their own/);
 		const s = ala.samples[0];
 		// ee = (L − D)/(L + D) of blank-corrected replicate means (IUPAC Gold Book, "enantiomer excess")
 		const cl = ssMean([14.8, 15.3, 15.0]) - ssMean(blankL);
 		const cd = ssMean([9.1, 9.4, 9.0]) - ssMean([0.4, 0.6, 0.5, 0.5]);
 		expect(s.ee.ee).toBeCloseTo((cl - cd) / (cl + cd), 12);
-		expect(s.ee.significant).toBe(true);
+		expect(s.ee).toMatchObject({ status: 'quantified', significant: true, adjusted: { method: 'holm', significant: true } });
+		expect(s.ee.U).toBeCloseTo(s.ee.k * s.ee.u, 12);
+		expect(s.ee.interval.low).toBeCloseTo(s.ee.ee - s.ee.U, 12);
 		expect(s.possibleContamination).toBe(true);
 
-		const asp = rep.results.analytes.find((a: { analyte: string }) => a.analyte === 'aspartic acid').samples[0].parts.find((p: { key: string }) => p.key === 'L');
-		expect(asp.result.flags).toEqual({ belowLod: true, belowLoq: true, blankDominated: true });
-		const iva = rep.results.analytes.find((a: { analyte: string }) => a.analyte === 'isovaline').samples[0];
-		expect(iva.possibleContamination).toBe(false);
-		const gly = rep.results.analytes.find((a: { analyte: string }) => a.analyte === 'glycine').samples[0];
+		// isovaline: a 5.7 % excess that three replicates a side cannot support once ν_eff is counted
+		expect(find('isovaline').samples[0].ee).toMatchObject({ status: 'quantified', significant: false });
+		const asp = find('aspartic acid').samples[0];
+		expect(asp.parts.find((p: { key: string }) => p.key === 'L').result.flags).toMatchObject({ belowLod: true, belowLoq: true, blankDominated: true });
+		expect(asp.ee).toMatchObject({ status: 'not_quantifiable', ee: null });
+		expect(find('serine').samples[0].ee.instead.detected).toBe('L');
+		const nva = find('norvaline').samples[0].ee;
+		expect(nva).toMatchObject({ status: 'semi_quantitative', interval: { source: 'monte-carlo' } });
+		expect(nva.mc.trials).toBe(1_000_000);
+		// valine: weak limits from two blanks, significant alone but not after Holm's adjustment
+		const val = find('valine').samples[0].ee;
+		expect(val).toMatchObject({ weakLimits: true, significant: true, adjusted: { significant: false } });
+		const gly = find('glycine').samples[0];
 		// a single blank is a stated limitation, not an error, and no LOD is invented
 		expect(gly.parts[0].result.blank.lod).toBeNull();
 		expect(gly.limitations).toContain(LIMITATIONS.lodFromOneBlank);
 		expect(gly.ee).toBeNull();
+		expect(rep.methodNotes.join(' ')).toMatch(/Welch–Satterthwaite/);
+		expect(rep.results.method).toBe(METHOD_VERSION);
 
 		const rows = await sq.query<{ n: string }>('SELECT count(*) AS n FROM blank_control_rows WHERE report_id = :id', { type: QueryTypes.SELECT, replacements: { id: rep.id } });
 		expect(Number(rows[0].n)).toBe(csv.trim().split('\n').length - 1);
 		const items = await fennick.get(`/api/documents?subject=item&ref=${sample}`);
 		expect(items.body.reports.map((x: { id: string }) => x.id)).toContain(rep.id);
+	});
+
+	it('reads its settings from the upload, and recomputes every report on read with the current rules', async () => {
+		const bh = await fetch(`${BASE}/api/blank-control-reports?title=bh&name=t.csv&adjust=bh&limits=classical&minBlanks=4`, {
+			method: 'POST', headers: { origin: BASE, cookie: fennick.cookie!, 'content-type': 'text/csv' }, body: table()
+		});
+		expect(bh.status).toBe(201);
+		const rep = (await bh.json()).report;
+		expect(rep.settings).toMatchObject({ adjustment: 'bh', limits: 'classical', minBlanks: 4 });
+		// three blanks, fewer than the four asked for: weak limits, said in words
+		const L = rep.results.analytes[0].blanks[0].stats;
+		expect(L).toMatchObject({ n: 3, weak: true, used: 'classical' });
+		expect(rep.results.analytes[0].samples[0].ee.adjusted.method).toBe('bh');
+		expect(rep.methodNotes.join(' ')).toMatch(/Fewer than 4 blank replicates/);
+		// the seeded demo report, stored when the database was seeded, is read with the current rules too
+		const list = await fennick.get('/api/blank-control-reports');
+		const seeded = list.body.reports.at(-1);
+		const again = (await fennick.get(`/api/blank-control-reports/${seeded.id}`)).body.report;
+		expect(again.results.method).toBe(METHOD_VERSION);
+		expect(seeded.flagged).toBe(again.results.flagged);
+	});
+
+	it('refuses unknown settings, naming the parameter, and stores nothing', async () => {
+		const before = await counts();
+		const r = await fetch(`${BASE}/api/blank-control-reports?title=x&name=t.csv&adjust=bonferroni&minBlanks=1`, {
+			method: 'POST', headers: { origin: BASE, cookie: fennick.cookie!, 'content-type': 'text/csv' }, body: table()
+		});
+		expect(r.status).toBe(422);
+		const e = (await r.json()).error;
+		expect(e.code).toBe('invalid_input');
+		expect(e.fields).toMatchObject({ adjust: expect.stringMatching(/not holm, bh or none/), minBlanks: expect.stringMatching(/from 2 to 100/) });
+		expect(await counts()).toEqual(before);
 	});
 
 	it('accepts a byte-order mark and says so', async () => {
@@ -129,12 +187,13 @@ describe('blank-control reports: a good table', () => {
 		const r = await send(fennick, csv);
 		expect(r.status).toBe(201);
 		const s = r.body.report.results.analytes[0].samples[0];
-		expect(s.limitations).toEqual(expect.arrayContaining([LIMITATIONS.lodFromOneBlank, LIMITATIONS.loqFromOneBlank]));
+		expect(s.limitations).toEqual(expect.arrayContaining([LIMITATIONS.lodFromOneBlank, LIMITATIONS.eeNoLimit]));
 		expect(s.parts[0].result.flags.belowLod).toBeNull();
+		expect(s.ee).toMatchObject({ status: 'not_assessable', ee: null });
 	});
 
 	it('answers a PDF summary with the title, the flags and the original file’s checksum', async () => {
-		const r = await send(fennick, demoCsv(sample, blank), 'PDF check report');
+		const r = await send(fennick, demoCsv(sample, blank, witness), 'PDF check report');
 		const pdf = await fetch(`${BASE}/api/blank-control-reports/${r.body.report.id}/pdf`, { headers: { cookie: fennick.cookie! } });
 		expect(pdf.headers.get('content-type')).toBe('application/pdf');
 		const text = pdftext(Buffer.from(await pdf.arrayBuffer())).replace(/\s+/g, ' ');
@@ -142,6 +201,10 @@ describe('blank-control reports: a good table', () => {
 		expect(text).toContain('may be contamination rather than an indigenous signal');
 		expect(text).toContain('below LOD');
 		expect(text).toContain(r.body.report.document.sha256.slice(0, 32));
+		// the PDF shows ν_eff, k, the interval, the verdicts, the limits and why an ee is or is not quoted
+		for (const t of ['nu_eff', '95 % interval', 'Holm', 'Semi-quantitative', 'Not quantifiable', 'weak', 'Currie 1995', 'G. L. Long and J. D. Winefordner', 'Welch–Satterthwaite', 'Monte-Carlo']) expect(text).toContain(t);
+		const ala = r.body.report.results.analytes.find((a: { analyte: string }) => a.analyte === 'alanine').samples[0].ee;
+		expect(text).toContain(`[${(ala.interval.low * 100).toFixed(1)} %, ${(ala.interval.high * 100).toFixed(1)} %]`);
 	});
 
 	it('offers the template with the layout’s header', async () => {

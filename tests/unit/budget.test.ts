@@ -56,6 +56,31 @@ describe('split budget (DESIGN §3.3)', () => {
 		expect(beyond.issues[0].message).toMatch(/reweigh/);
 	});
 
+	it('judges children that exceed an unweighed parent by the same rule, L < −2·u_L, as a reweighed parent (DESIGN §3.3)', () => {
+		const tol = { tolerance: { ug: 20 } };
+		// unweighed: u_L = √(3·0.8165²) = 1.414 µg, 2·u_L = 2.83 µg (GUM 5.1.2, k = 2)
+		const one = splitBudget({ parentBefore: w(1000), children: [w(600), w(401)] }, tol);
+		expect(one).toMatchObject({ verdict: 'ok', lossUg: -1, parentAfterUg: 0, reweighed: false });
+		expect(one.lossU).toBeCloseTo(Math.sqrt(3) * u, 12);
+		const three = splitBudget({ parentBefore: w(1000), children: [w(600), w(403)] }, tol);
+		expect(three.verdict).toBe('rejected');
+		expect(codes(three)).toEqual(['children-exceed-parent']);
+		expect(three.issues[0].message).toMatch(/more than 2·u_L = 2\.83 µg: mass cannot appear/);
+		// reweighed: the same 1 µg and 3 µg excesses, u_L = √(4·0.8165²) = 1.633, 2·u_L = 3.27 µg
+		expect(splitBudget({ parentBefore: w(1000), children: [w(600), w(400)], parentAfter: w(1) }, tol).verdict).toBe('ok');
+		expect(splitBudget({ parentBefore: w(1000), children: [w(600), w(400)], parentAfter: w(3) }, tol).verdict).toBe('ok');
+		expect(splitBudget({ parentBefore: w(1000), children: [w(600), w(400)], parentAfter: w(4) }, tol).verdict).toBe('rejected');
+		// a property: for any masses, rejection for appeared mass happens exactly when L < −2·u_L
+		fc.assert(
+			fc.property(fc.integer({ min: 1, max: 10_000 }), fc.array(fc.integer({ min: 1, max: 5_000 }), { minLength: 1, maxLength: 4 }), fc.option(fc.integer({ min: 0, max: 10_000 }), { nil: null }), (p0, cs, p1) => {
+				const b = splitBudget({ parentBefore: w(p0), children: cs.map(w), parentAfter: p1 === null ? null : w(p1) }, { tolerance: { ug: 1_000_000 } });
+				const appeared = b.issues.some((i) => i.code === 'children-exceed-parent' || i.code === 'mass-appeared');
+				const uL = Math.sqrt((cs.length + 1 + (p1 === null ? 0 : 1)) * u * u);
+				expect(appeared).toBe(b.lossUg < -2 * uL);
+			})
+		);
+	});
+
 	it('with zero uncertainty any appearing microgram is rejected', () => {
 		const exact = (massUg: number) => ({ massUg, u: 0 });
 		const b = splitBudget({ parentBefore: exact(100), children: [exact(60)], parentAfter: exact(41) }, { tolerance: { ug: 5 } });
@@ -74,7 +99,7 @@ describe('split budget (DESIGN §3.3)', () => {
 		['a zero child', { parentBefore: w(1000), children: [w(500), w(0)], parentAfter: w(500) }, 'child-not-positive'],
 		['a negative child', { parentBefore: w(1000), children: [w(-5)], parentAfter: w(1005) }, 'child-not-positive'],
 		['a negative parent after', { parentBefore: w(1000), children: [w(500)], parentAfter: w(-1) }, 'parent-after-negative'],
-		['children above the parent', { parentBefore: w(1000), children: [w(600), w(401)] }, 'children-exceed-parent'],
+		['children above the parent beyond 2·u_L', { parentBefore: w(1000), children: [w(600), w(410)] }, 'children-exceed-parent'],
 		['no children', { parentBefore: w(1000), children: [], parentAfter: w(1000) }, 'no-children'],
 		['an empty parent', { parentBefore: w(0), children: [w(1)] }, 'parent-not-positive']
 	])('rejects %s', (_, input, code) => {
@@ -142,7 +167,9 @@ describe('split budget (DESIGN §3.3)', () => {
 				expect(BigInt(b.parentAfterUg) + sum + BigInt(b.lossUg)).toBe(BigInt(input.parentBefore.massUg));
 				expect(b.childrenTotalUg).toBe(Number(sum));
 				if (input.parentAfter) expect(b.parentAfterUg).toBe(input.parentAfter.massUg);
-				else expect(b.lossUg).toBe(0);
+				// unweighed: P1 = max(0, P0 − Σc), so the loss is 0 unless the children exceed the parent
+				else expect(BigInt(b.lossUg)).toBe(sum > BigInt(input.parentBefore.massUg) ? BigInt(input.parentBefore.massUg) - sum : 0n);
+				expect(b.parentAfterUg).toBeGreaterThanOrEqual(input.parentAfter ? Math.min(0, input.parentAfter.massUg) : 0);
 			})
 		);
 	});

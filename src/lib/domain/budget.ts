@@ -47,13 +47,13 @@ export interface SplitIssue {
 export interface SplitBudget {
 	verdict: 'ok' | 'needs-reason' | 'rejected';
 	issues: SplitIssue[];
-	/** false when the parent was not reweighed: P1 = P0 − Σc is inferred and the loss is taken as 0 */
+	/** false when the parent was not reweighed: P1 = max(0, P0 − Σc) is inferred and the loss is 0 unless the children exceed the parent */
 	reweighed: boolean;
 	childrenTotalUg: number;
 	parentAfterUg: number;
 	/** L = P0 − P1 − Σc, exact */
 	lossUg: number;
-	/** u_L = √(u₀² + u₁² + Σuᵢ²); 0 when not reweighed (the loss was not measured) */
+	/** u_L = √(u₀² + u₁² + Σuᵢ²); 0 when not reweighed and the loss is 0 (it was not measured) */
 	lossU: number;
 	toleranceUg: number;
 	belowMinimum: number[];
@@ -77,10 +77,16 @@ function fraction(f: number, field: string): number {
 /**
  * Mass budget of one split: loss L = P0 − P1 − Σcᵢ and its standard uncertainty
  * u_L = √(u₀² + u₁² + Σuᵢ²) for independent inputs (JCGM 100:2008, 5.1.2).
- * Rejected when a child is ≤ 0, P0 ≤ 0, P1 < 0, Σcᵢ > P0, or L < −2·u_L (P1 + Σcᵢ exceeds P0
- * beyond the measurement: mass cannot appear, reweigh). Needs a recorded reason when L exceeds
- * the loss tolerance or a child is below the minimum weight (USP <41>). Non-integer masses and
- * invalid uncertainties or options throw MassInputError.
+ *
+ * One rule for mass that appears (DESIGN §3.3), stated once: **rejected when L < −2·u_L** — the
+ * masses after the split exceed the parent before by more than the measurement can explain. It
+ * applies alike to a reweighed parent and to children that exceed an unweighed parent: without a
+ * reweighing P1 is inferred as P0 − Σcᵢ, never below 0 (u₁ = 0), so children exceeding P0 give
+ * L = P0 − Σcᵢ < 0, judged by the same rule (code `children-exceed-parent`, so the API can answer
+ * that the mass is not there; beyond it, `mass-appeared`). Also rejected: a child ≤ 0, P0 ≤ 0, a
+ * measured P1 < 0. Needs a recorded reason when L exceeds the loss tolerance or a child is below
+ * the minimum weight (USP <41>). Non-integer masses and invalid uncertainties or options throw
+ * MassInputError.
  */
 export function splitBudget(input: SplitInput, options: SplitOptions): SplitBudget {
 	const p0 = wholeUg(input.parentBefore.massUg, 'parentBefore');
@@ -89,10 +95,13 @@ export function splitBudget(input: SplitInput, options: SplitOptions): SplitBudg
 	const us = input.children.map((c, i) => uncertainty(c.u, `children[${i}].u`));
 	const total = cs.reduce((a, c) => a + c, 0n);
 	const after = input.parentAfter ?? null;
-	const p1 = after ? wholeUg(after.massUg, 'parentAfter') : p0 - total;
+	const inferred = p0 - total;
+	const p1 = after ? wholeUg(after.massUg, 'parentAfter') : inferred > 0n ? inferred : 0n;
 	const u1 = after ? uncertainty(after.u, 'parentAfter.u') : 0;
 	const loss = p0 - p1 - total;
-	const lossU = after ? Math.sqrt(u0 * u0 + u1 * u1 + us.reduce((a, u) => a + u * u, 0)) : 0;
+	const uL = Math.sqrt(u0 * u0 + u1 * u1 + us.reduce((a, u) => a + u * u, 0));
+	// without a reweighing the loss is not measured: 0, unless the children exceed the parent
+	const lossU = after || loss !== 0n ? uL : 0;
 
 	const tol = options.tolerance;
 	// for integer L, L > f·P0 ⇔ L > ⌊f·P0⌋, so a fractional tolerance is floored exactly
@@ -115,12 +124,10 @@ export function splitBudget(input: SplitInput, options: SplitOptions): SplitBudg
 		if (c <= 0n) reject('child-not-positive', `child ${i + 1} must weigh more than zero, got ${mg(c)}`, i);
 	});
 	if (after && p1 < 0n) reject('parent-after-negative', `parent mass after the split cannot be negative, got ${mg(p1)}`);
-	if (total > p0) reject('children-exceed-parent', `children total ${mg(total)} exceeds the parent's ${mg(p0)}`);
-	else if (after && Number(loss) < -2 * lossU) {
-		reject(
-			'mass-appeared',
-			`parent after plus children exceed the parent before by ${mg(-loss)}, more than 2·u_L = ${(2 * lossU).toFixed(2)} µg: mass cannot appear; reweigh`
-		);
+	else if (Number(loss) < -2 * uL) {
+		const beyond = `more than 2·u_L = ${(2 * uL).toFixed(2)} µg: mass cannot appear`;
+		if (total > p0) reject('children-exceed-parent', `children total ${mg(total)} exceeds the parent's ${mg(p0)} by ${mg(-loss)}, ${beyond}`);
+		else reject('mass-appeared', `parent after plus children exceed the parent before by ${mg(-loss)}, ${beyond}; reweigh`);
 	}
 
 	const belowMinimum =

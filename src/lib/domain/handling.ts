@@ -8,9 +8,12 @@
  */
 import { ATMOSPHERES, type Atmosphere, type CollectionRules } from './exposure';
 
+// Words match in any case ("Argon glovebox", "ARGON"); the element symbols only as written (Ar, N2),
+// so that "ar" inside a word or sentence never counts.
 const WORDS: [RegExp, Atmosphere][] = [
 	[/nitrogen|\bN2\b|N₂/i, 'nitrogen_glovebox'],
-	[/argon|\bAr\b/, 'argon_glovebox'],
+	[/argon/i, 'argon_glovebox'],
+	[/\bAr\b/, 'argon_glovebox'],
 	[/clean ?room/i, 'cleanroom_air'],
 	[/vacuum/i, 'vacuum'],
 	[/ambient|laboratory air|\bair\b/i, 'ambient_air']

@@ -11,10 +11,13 @@ export interface HandlingRules {
 }
 
 /** Short forms of the protected atmospheres; anything else counts as not protected. */
+// Names match in any case ("Argon glovebox"); the element symbols only as written (Ar, He).
 const PROTECTED: [RegExp, string][] = [
 	[/\bnitrogen\b|\bN2\b|N₂/i, 'N₂'],
-	[/\bargon\b|\bAr\b/, 'Ar'],
-	[/\bhelium\b|\bHe\b/, 'He'],
+	[/\bargon\b/i, 'Ar'],
+	[/\bAr\b/, 'Ar'],
+	[/\bhelium\b/i, 'He'],
+	[/\bHe\b/, 'He'],
 	[/\bvacuum\b/i, 'vac']
 ];
 

@@ -5,8 +5,8 @@ import { canSeeLab, labCondition } from '../auth/scope';
 import { config } from '../config';
 import { appendTrail } from '../trail';
 import { trailActor, type Who } from '../registry/common';
-import { computeReport, type ReportResults, type RoleRow } from '../../domain/blank-report';
-import { DEFAULT_BLANK_SETTINGS } from '../../domain/blanks';
+import { blankKindOf, computeReport, methodNotes, type ReportResults, type RoleRow } from '../../domain/blank-report';
+import { DEFAULT_BLANK_SETTINGS, settingsOf, type BlankSettings } from '../../domain/blanks';
 import { csvProblem, parseBlankControlCsv, type CsvIssue } from './parse';
 import { documentView, storeDocument, type DocumentRow } from '../documents/store';
 import { megabytes } from '../documents/types';
@@ -17,6 +17,36 @@ export interface NewReport {
 	fileName: string;
 	contentType: string | null;
 	bytes: Uint8Array;
+	/** the report's settings; what is left out takes the defaults */
+	settings?: Partial<BlankSettings>;
+}
+
+/**
+ * Reads the report settings an upload may carry (query parameters adjust=holm|bh|none,
+ * limits=currie|classical, minBlanks=2…100); anything else is refused with the parameter named.
+ */
+export function settingsFromQuery(q: URLSearchParams): Partial<BlankSettings> {
+	const out: Partial<BlankSettings> = {};
+	const fields: Record<string, string> = {};
+	const adjust = q.get('adjust');
+	if (adjust !== null) {
+		if (adjust === 'holm' || adjust === 'bh' || adjust === 'none') out.adjustment = adjust;
+		else fields.adjust = `"${adjust.slice(0, 20)}" is not holm, bh or none`;
+	}
+	const limits = q.get('limits');
+	if (limits !== null) {
+		if (limits === 'currie' || limits === 'classical') out.limits = limits;
+		else fields.limits = `"${limits.slice(0, 20)}" is not currie or classical`;
+	}
+	const min = q.get('minBlanks');
+	if (min !== null) {
+		const n = Number(min);
+		if (/^\d+$/.test(min) && n >= 2 && n <= 100) out.minBlanks = n;
+		else fields.minBlanks = `"${min.slice(0, 20)}" is not a whole number from 2 to 100`;
+	}
+	const bad = Object.entries(fields);
+	if (bad.length) throw new ApiProblem(422, 'invalid_input', `${bad.map(([k, v]) => `${k}: ${v}`).join('; ')}. Nothing was stored.`, fields);
+	return out;
 }
 
 /**
@@ -66,6 +96,7 @@ interface ItemLite {
 	id: string;
 	code: string;
 	kind: string;
+	description: string;
 	holder_lab_id: string | null;
 }
 
@@ -81,7 +112,7 @@ export async function createReport(sq: Sequelize, who: Who, input: NewReport, op
 	const { rows, notes } = parseBlankControlCsv(input.bytes);
 
 	const codes = [...new Set(rows.map((r) => r.code))];
-	const found = await sq.query<ItemLite>('SELECT id, code, kind, holder_lab_id FROM items WHERE code IN (:codes)', { type: QueryTypes.SELECT, replacements: { codes } });
+	const found = await sq.query<ItemLite>('SELECT id, code, kind, description, holder_lab_id FROM items WHERE code IN (:codes)', { type: QueryTypes.SELECT, replacements: { codes } });
 	const byCode = new Map(found.filter((i) => canSeeLab(who, i.holder_lab_id)).map((i) => [i.code, i]));
 	const issues: CsvIssue[] = [];
 	const reported = new Set<string>();
@@ -92,14 +123,18 @@ export async function createReport(sq: Sequelize, who: Who, input: NewReport, op
 		}
 	}
 	if (issues.length) throw csvProblem(issues, 'unknown_item');
-	const withRoles: RoleRow[] = rows.map((r) => ({ ...r, role: byCode.get(r.code)!.kind === 'blank' ? 'blank' : 'sample' }));
+	const withRoles: RoleRow[] = rows.map((r) => {
+		const item = byCode.get(r.code)!;
+		return item.kind === 'blank' ? { ...r, role: 'blank', blankKind: blankKindOf(item.description) } : { ...r, role: 'sample' };
+	});
 	if (!withRoles.some((r) => r.role === 'blank')) {
 		throw csvProblem([{ row: 2, column: 'sample_or_blank', message: 'no row names a blank item (an item of kind blank); a blank-control report needs at least one blank' }], 'no_blank');
 	}
 	if (!withRoles.some((r) => r.role === 'sample')) {
 		throw csvProblem([{ row: 2, column: 'sample_or_blank', message: 'every row names a blank; name the analysed aliquot in the rows of the sample' }], 'no_sample');
 	}
-	const results = computeReport(withRoles, DEFAULT_BLANK_SETTINGS);
+	const settings = settingsOf({ ...DEFAULT_BLANK_SETTINGS, ...(input.settings ?? {}) });
+	const results = computeReport(withRoles, settings);
 	const reportId = randomUUID();
 	const labId = who.role === 'lab_member' ? who.labId : null;
 	const links = [...byCode.values()].map((i) => ({ item_id: i.id, role: i.kind === 'blank' ? 'blank' : 'sample' }));
@@ -150,7 +185,60 @@ export async function createReport(sq: Sequelize, who: Who, input: NewReport, op
 			}
 		}
 	);
+	cache.set(reportId, results);
 	return getReport(sq, who, reportId, doc);
+}
+
+/**
+ * Results are computed on read from the stored rows with the rules of this version
+ * (METHOD_VERSION), so no report shows a verdict of older rules; the results column keeps what was
+ * computed at upload as part of the append-only record. The rows never change, so the computed
+ * results (with their Monte-Carlo runs) are kept per report in memory.
+ */
+const cache = new Map<string, ReportResults>();
+const CACHE_MAX = 200;
+
+interface StoredRow {
+	line: number;
+	analyte: string;
+	enantiomer: 'L' | 'D' | null;
+	code: string;
+	kind: string;
+	description: string;
+	role: 'sample' | 'blank';
+	replicate: number;
+	value: number;
+	unit: string;
+	uncertainty: number | null;
+}
+
+async function storedRows(sq: Sequelize, ids: string[]): Promise<Map<string, RoleRow[]>> {
+	const rows = await sq.query<StoredRow & { report_id: string }>(
+		`SELECT w.report_id, w.line, w.analyte, w.enantiomer, i.code, i.kind, i.description, w.role, w.replicate, w.value, w.unit, w.uncertainty
+		 FROM blank_control_rows w JOIN items i ON i.id = w.item_id WHERE w.report_id IN (:ids) ORDER BY w.report_id, w.line`,
+		{ type: QueryTypes.SELECT, replacements: { ids } }
+	);
+	const out = new Map<string, RoleRow[]>();
+	for (const r of rows) {
+		if (!out.has(r.report_id)) out.set(r.report_id, []);
+		out.get(r.report_id)!.push({
+			line: r.line, analyte: r.analyte, enantiomer: r.enantiomer, code: r.code, role: r.role, replicate: r.replicate, value: Number(r.value), unit: r.unit,
+			uncertainty: r.uncertainty === null ? null : Number(r.uncertainty),
+			...(r.role === 'blank' ? { blankKind: blankKindOf(r.description) } : {})
+		});
+	}
+	return out;
+}
+
+/** A report's results under the current rules, from its stored rows (cached). */
+async function resultsOf(sq: Sequelize, id: string, stored: Partial<BlankSettings>): Promise<ReportResults> {
+	const hit = cache.get(id);
+	if (hit) return hit;
+	const rows = (await storedRows(sq, [id])).get(id) ?? [];
+	const results = computeReport(rows, stored);
+	if (cache.size >= CACHE_MAX) cache.delete(cache.keys().next().value!);
+	cache.set(id, results);
+	return results;
 }
 
 interface ReportRow {
@@ -159,23 +247,23 @@ interface ReportRow {
 	lab_id: string | null;
 	lab_name: string | null;
 	document_id: string;
-	results: ReportResults;
+	settings: Partial<BlankSettings>;
 	notes: string[];
 	flagged: number;
 	created_by_label: string | null;
 	created_at: Date;
 }
 
-const REPORT_SELECT = `SELECT r.id, r.title, r.lab_id, l.name AS lab_name, r.document_id, r.results, r.notes, r.flagged, u.email AS created_by_label, r.created_at
+const REPORT_SELECT = `SELECT r.id, r.title, r.lab_id, l.name AS lab_name, r.document_id, r.settings, r.notes, r.flagged, u.email AS created_by_label, r.created_at
 	FROM blank_control_reports r LEFT JOIN labs l ON l.id = r.lab_id LEFT JOIN users u ON u.id = r.created_by`;
 
-function summary(r: ReportRow) {
+function summary(r: ReportRow, results: Pick<ReportResults, 'flagged' | 'analytes'>) {
 	return {
 		id: r.id,
 		title: r.title,
 		lab: r.lab_id === null ? { id: null, name: 'Facility' } : { id: r.lab_id, name: r.lab_name ?? '' },
-		flagged: r.flagged,
-		analytes: r.results.analytes.map((a) => a.analyte),
+		flagged: results.flagged,
+		analytes: results.analytes.map((a) => a.analyte),
 		createdBy: r.created_by_label,
 		createdAt: new Date(r.created_at).toISOString(),
 		href: `/reports/${r.id}`
@@ -192,10 +280,13 @@ export async function getReport(sq: Sequelize, who: Pick<Who, 'role' | 'labId'>,
 		{ type: QueryTypes.SELECT, replacements: { id } }
 	);
 	const [d] = doc ? [doc] : await sq.query<DocumentRow>(`SELECT d.*, u.email AS uploaded_by_label FROM documents d LEFT JOIN users u ON u.id = d.uploaded_by WHERE d.id = :id`, { type: QueryTypes.SELECT, replacements: { id: r.document_id } });
+	const results = await resultsOf(sq, r.id, r.settings);
 	return {
-		...summary(r),
+		...summary(r, results),
 		notes: r.notes,
-		results: r.results,
+		settings: results.settings,
+		results,
+		methodNotes: methodNotes(results.settings),
 		items: items.map((i) => ({ code: i.code, role: i.role, description: i.description, visible: canSeeLab(who, i.holder_lab_id) })),
 		document: documentView(d)
 	};
@@ -211,5 +302,7 @@ export async function listReports(sq: Sequelize, who: Pick<Who, 'role' | 'labId'
 		replacements.itemId = opts.itemId;
 	}
 	const rows = await sq.query<ReportRow>(`${REPORT_SELECT} ${where} ORDER BY r.created_at DESC, r.id LIMIT :limit`, { type: QueryTypes.SELECT, replacements });
-	return rows.map(summary);
+	// flags do not depend on the Monte-Carlo runs, so the list computes without them
+	const stored = rows.length ? await storedRows(sq, rows.map((r) => r.id)) : new Map<string, RoleRow[]>();
+	return rows.map((r) => summary(r, cache.get(r.id) ?? computeReport(stored.get(r.id) ?? [], r.settings, { trials: 0 })));
 }

@@ -143,15 +143,21 @@ export async function splitItem(sq: Sequelize, who: Who, parentCode: string, inp
 		let running = parent.mass_ug;
 		let uRun = u0 * u0;
 		let seq = 1;
+		// a measured loss, or the few µg by which unweighed children exceed the parent within 2·u_L.
+		// A negative loss (mass that appeared within the measurement) is booked before the children
+		// are taken out, so the running balance never goes below zero.
+		const booksLoss = budget.reweighed || budget.lossUg !== 0;
+		const bookLoss = () => {
+			running -= budget.lossUg;
+			entries.push({ item: parent.id, own: true, seq: seq++, kind: 'split_loss', delta: -budget.lossUg, after: running, u: uAfter, counterpart: null, weighing: parentWeighingId, child: null, note: reason ?? '' });
+		};
+		if (booksLoss && budget.lossUg < 0) bookLoss();
 		for (const c of children) {
 			running -= c.massUg;
 			uRun += uChild * uChild;
 			entries.push({ item: parent.id, own: true, seq: seq++, kind: 'split_out', delta: -c.massUg, after: running, u: Math.sqrt(uRun), counterpart: c.id, weighing: null, child: c.ord, note: '' });
 		}
-		if (budget.reweighed) {
-			running -= budget.lossUg;
-			entries.push({ item: parent.id, own: true, seq: seq++, kind: 'split_loss', delta: -budget.lossUg, after: running, u: uAfter, counterpart: null, weighing: parentWeighingId, child: null, note: reason ?? '' });
-		}
+		if (booksLoss && budget.lossUg >= 0) bookLoss();
 		for (const c of children) {
 			entries.push({ item: c.id, own: false, seq: 1, kind: 'split_in', delta: c.massUg, after: c.massUg, u: c.uUg, counterpart: parent.id, weighing: c.weighingId, child: null, note: `from ${parent.code}` });
 		}
