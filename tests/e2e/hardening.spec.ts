@@ -13,7 +13,7 @@ const ROLES = [
 	{ role: 'admin', email: 'admin@brightwater.example' }
 ] as const;
 const PAGES = new Set(walkRoutes().filter((r) => !r.id.startsWith('/api') && r.methods.includes('GET')).map((r) => r.id));
-const FACILITY_ITEM = 'TRN-00001-Y';
+const FACILITY_ITEM = encodeURIComponent('TRN-00001/Y');
 
 async function watchCsp(page: Page): Promise<() => Promise<string[]>> {
 	const console: string[] = [];

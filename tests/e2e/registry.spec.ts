@@ -12,7 +12,7 @@ test('a curator splits a demo specimen into three aliquots and sees lineage and 
 	await signIn(page, 'curator@brightwater.example');
 	await page.goto('/items');
 	await page.getByLabel('Code or text').fill('broken face exposing matrix');
-	const link = page.getByRole('table').getByRole('link', { name: /^HLF-\d{5}-[0-9A-Z]$/ }).first();
+	const link = page.getByRole('table').getByRole('link', { name: /^HLF-\d{5}\/[0-9A-Z]$/ }).first();
 	await expect(page.getByRole('table').getByRole('row')).toHaveCount(2);
 	const code = (await link.textContent())!.trim();
 	await link.click();

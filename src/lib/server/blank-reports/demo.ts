@@ -6,8 +6,8 @@ import { ApiProblem } from '../api';
 import { COLUMNS } from '../../domain/blank-report';
 import { createReport } from './service';
 
-export const DEMO_REPORT_TITLE = 'Hot-water extract of a Chamber A aliquot, chiral GC-MS run 1';
-const DEMO_BLANK_DESCRIPTION = 'Procedural blank: baked fused-silica vial carried through hot-water extraction and acid hydrolysis alongside the Chamber A aliquot';
+export const DEMO_REPORT_TITLE = 'Hot-water extract of a cell 1 aliquot, chiral GC-MS run 1';
+const DEMO_BLANK_DESCRIPTION = 'Procedural blank: baked fused-silica vial carried through hot-water extraction and acid hydrolysis alongside the cell 1 aliquot';
 
 /**
  * The demo table of Fennick Organics Lab (invented values, nmol/g): a protein amino acid with an
@@ -84,7 +84,7 @@ export async function seedBlankControlDemo(sq: Sequelize, log: (s: string) => vo
 	}
 	const who: Who = { id: user.id, label: user.email, role: 'lab_member', labId: lab.id };
 	try {
-		await createReport(sq, who, { title: DEMO_REPORT_TITLE, fileName: 'fennick-chamber-a-run1.csv', contentType: 'text/csv', bytes: Buffer.from(demoCsv(sample.code, blank.code)) });
+		await createReport(sq, who, { title: DEMO_REPORT_TITLE, fileName: 'fennick-cell-1-run1.csv', contentType: 'text/csv', bytes: Buffer.from(demoCsv(sample.code, blank.code)) });
 		log(`demo blank-control report on ${sample.code} present`);
 	} catch (e) {
 		if (e instanceof ApiProblem && e.code === 'storage_unavailable') log('demo blank-control report skipped: the document store is not reachable');
