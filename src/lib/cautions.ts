@@ -57,29 +57,29 @@ export function cautionText(c: Caution): string[] {
 export const HANDLING_CAUTIONS = {
 	glovebox: {
 		key: 'glovebox',
-		title: 'Caution: glovebox',
+		title: 'Glovebox',
 		lines: [
-			'Check each glove and its ring for pinholes, tears, swelling and wear before putting hands in, and change a glove that is damaged or was cut.',
-			'Watch the box pressure: over pressure can blow a glove out, under pressure draws the gloves in and room air through any leak. Keep inside the working range and move items through the antechamber only as its procedure says.',
-			'The inert gas cannot be breathed: know where the oxygen alarm is and what it means.'
+			'Check the gloves for pinholes, tears and wear before use, and change a damaged or cut glove.',
+			'Keep the box within its pressure range: over-pressure can blow a glove out, under-pressure draws room air in through any leak. Use the antechamber as its procedure says.',
+			'The inert gas cannot be breathed: know the oxygen alarm.'
 		],
 		defer: BENCH_DEFER
 	},
 	cutting: {
 		key: 'cutting',
-		title: 'Caution: cutting and sharp tools',
+		title: 'Cutting and sharp tools',
 		lines: [
-			'Cut away from the hand that holds the piece, keep blades and saws guarded when not in use, and put used blades in a sharps container.',
-			'Inside a glovebox a cut or pierced glove breaches the box: stop, and change the glove.'
+			'Cut away from the holding hand, guard blades when not in use and put used ones in a sharps container.',
+			'In a glovebox a cut glove breaches the box: stop and change it.'
 		],
 		defer: BENCH_DEFER
 	},
 	vacuum: {
 		key: 'vacuum',
-		title: 'Caution: vacuum chamber',
+		title: 'Vacuum chamber',
 		lines: [
-			'Check windows and viewports for cracks and chips before pumping down: a failing viewport implodes and throws glass.',
-			'Vent the chamber fully to atmosphere before opening it, and keep hands clear of moving manipulators and cold surfaces.'
+			'Check windows and viewports for cracks before pumping down: a failing viewport implodes.',
+			'Vent fully before opening, and keep hands clear of moving manipulators and cold surfaces.'
 		],
 		defer: BENCH_DEFER
 	}

@@ -12,7 +12,9 @@ async function signIn(page: Page) {
 	await page.getByLabel(/e-?mail/i).fill('curator@brightwater.example');
 	await page.getByLabel(/password/i).fill('brightwater-demo');
 	await page.getByRole('button', { name: /sign in/i }).click();
-	await expect(page).toHaveURL(/\/scan$/);
+	// the path itself: the sign-in page's own URL ends in ?next=/scan too
+	await page.waitForURL((u) => u.pathname === '/scan');
+	await expect(page.getByLabel('Item code or label link')).toBeFocused();
 }
 
 test.describe('scan page', () => {

@@ -74,4 +74,16 @@ describe('a code in a route', () => {
 			expect(r.body.error.code).toBe('wrong_check_character');
 		}
 	});
+
+	it('finds the trail events of an item by its code in either form', async () => {
+		const auditor = await signedIn(DEMO.auditor);
+		const first = await auditor.get('/api/trail/events?subjectType=item&action=item.custody_changed&limit=1');
+		expect(first.status).toBe(200);
+		const subject = first.body.events[0].subject.id as string;
+		expect(parseCode(subject)).toMatchObject({ ok: true, code: subject });
+		const byCode = await auditor.get(`/api/trail/events?subjectType=item&subjectId=${encodeURIComponent(subject)}`);
+		const byOld = await auditor.get(`/api/trail/events?subjectType=item&subjectId=${encodeURIComponent(legacyCode(subject))}`);
+		expect(byCode.body.events.length).toBeGreaterThan(0);
+		expect(byOld.body.events.map((e: { seq: number }) => e.seq)).toEqual(byCode.body.events.map((e: { seq: number }) => e.seq));
+	});
 });

@@ -35,8 +35,8 @@ describe('handling cautions', () => {
 		expect(handlingCautions({ atmospheres: ['vacuum', 'argon glovebox'] }).map((c) => c.key)).toEqual(['glovebox', 'vacuum']);
 		expect(handlingCautions({ atmospheres: ['cleanroom_air'] })).toEqual([]);
 		const glovebox = cautionText(handlingCautions({ atmospheres: ['nitrogen_glovebox'] })[0]).join(' ');
-		expect(glovebox).toMatch(/over pressure/);
-		expect(glovebox).toMatch(/under pressure/);
+		expect(glovebox).toMatch(/over-pressure/);
+		expect(glovebox).toMatch(/under-pressure/);
 		expect(glovebox).toMatch(/pinholes/);
 	});
 

@@ -13,6 +13,9 @@ function fontFile(weight: 400 | 700): string {
 	return join(dir, 'files', `atkinson-hyperlegible-latin-${weight}-normal.woff`);
 }
 
+/** Subscript digits (CO₂) as plain ones: the embedded font has no subscript glyphs. */
+const plainDigits = (s: string) => s.replace(/[\u2080-\u2089]/g, (c) => String.fromCharCode(c.charCodeAt(0) - 0x2080 + 0x30));
+
 /** A caution in a box with an ochre bar at its left, as on the screen, across the text width. */
 function cautionBox(doc: PDFKit.PDFDocument, title: string[], lines: string[]) {
 	const left = doc.page.margins.left;
@@ -35,7 +38,7 @@ function cautionBox(doc: PDFKit.PDFDocument, title: string[], lines: string[]) {
 	doc.y = top + h;
 }
 
-/** The custody receipt of one transfer: manifest, every signature's manifestation and the manifest hash. */
+/** The custody receipt of one transfer: manifest, dry-ice mass and the coolant's caution, every signature's manifestation and the manifest hash. */
 export function receiptPdf(d: TransferData): Promise<Buffer> {
 	return new Promise((resolve, reject) => {
 		const doc = new PDFDocument({ size: 'A4', margin: 50, info: { Title: `Custody receipt ${d.transfer.number}`, Producer: 'Regolog' } });
@@ -52,7 +55,7 @@ export function receiptPdf(d: TransferData): Promise<Buffer> {
 		doc.font('body').fontSize(10).fillColor('#3f3c34').text(`Regolog · ${facility} · printed ${new Date().toISOString().replace('T', ' ').slice(0, 19)} UTC`);
 		doc.moveDown();
 		const row = (k: string, v: string) => {
-			doc.font('bold').fontSize(10).fillColor('#1c1b18').text(`${k}: `, { continued: true }).font('body').text(v || '—');
+			doc.font('bold').fontSize(10).fillColor('#1c1b18').text(`${k}: `, { continued: true }).font('body').text(plainDigits(v) || '—');
 		};
 		row('Direction', x.direction === 'outbound' ? 'Facility to lab' : 'Lab to facility (return)');
 		row('From', x.from.name ?? '');
