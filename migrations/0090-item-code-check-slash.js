@@ -1,7 +1,7 @@
 // Item codes set their check character apart with a slash: PREFIX-NNNNN/C (src/lib/domain/codes.ts).
-// item_code() now writes that form; every stored code is rewritten from its collection's prefix and
-// its serial (the check character is the same, ISO/IEC 7064:2003 MOD 37,36, over prefix and serial),
-// and every lineage entry, which quotes its own and its parent's code, is written again afterwards.
+// item_code() now writes that form; every stored code in the older form PREFIX-NNNNN-C gets the slash
+// in place of its last hyphen (the check character stays, ISO/IEC 7064:2003 MOD 37,36 over prefix and
+// serial), and every lineage entry, which quotes its own and its parent's code, is written again.
 // Codes are otherwise fixed (items_identity_fixed): that guard is lifted for this one rewrite only,
 // inside the migration's implicit transaction.
 //
@@ -46,7 +46,7 @@ export async function up({ sequelize }) {
 
 		ALTER TABLE items DROP CONSTRAINT items_code_characters;
 		ALTER TABLE items DISABLE TRIGGER items_identity_fixed;
-		UPDATE items i SET code = item_code(c.prefix, i.serial) FROM collections c WHERE c.id = i.collection_id;
+		UPDATE items SET code = regexp_replace(code, '-([0-9A-Z])$', '/\\1') WHERE code ~ '^[A-Z]{2,5}-[0-9]{5,}-[0-9A-Z]$';
 		ALTER TABLE items ENABLE TRIGGER items_identity_fixed;
 		ALTER TABLE items ADD CONSTRAINT items_code_characters CHECK (code ~ '^[A-Z0-9/-]+$');
 		-- each entry again, now that every parent's code is rewritten too
@@ -60,7 +60,7 @@ export async function down({ sequelize }) {
 		${itemCodeFunction('-')}
 		ALTER TABLE items DROP CONSTRAINT items_code_characters;
 		ALTER TABLE items DISABLE TRIGGER items_identity_fixed;
-		UPDATE items SET code = replace(code, '/', '-') WHERE code LIKE '%/%';
+		UPDATE items SET code = regexp_replace(code, '/([0-9A-Z])$', '-\\1') WHERE code ~ '^[A-Z]{2,5}-[0-9]{5,}/[0-9A-Z]$';
 		ALTER TABLE items ENABLE TRIGGER items_identity_fixed;
 		ALTER TABLE items ADD CONSTRAINT items_code_characters CHECK (code ~ '^[A-Z0-9-]+$');
 		UPDATE items SET lineage_entry = NULL;
