@@ -63,9 +63,9 @@ for (const s of sizes) {
 			'items page (/items)': '/items',
 			'items table data (/api/items?limit=50)': '/api/items?limit=50',
 			'items table, sorted by mass': '/api/items?limit=50&sort=mass&dir=desc',
-			'item page, leaf aliquot': `/items/${g.leaf}`,
-			'item page, specimen with its tree': `/items/${g.specimen}`,
-			'lineage of a specimen (API)': `/api/items/${g.specimen}/lineage`
+			'item page, leaf aliquot': `/items/${encodeURIComponent(g.leaf)}`,
+			'item page, specimen with its tree': `/items/${encodeURIComponent(g.specimen)}`,
+			'lineage of a specimen (API)': `/api/items/${encodeURIComponent(g.specimen)}/lineage`
 		};
 		const q: Record<string, number> = {};
 		for (const [name, path] of Object.entries(pages)) q[name] = await queries(app.base, path, cookie);

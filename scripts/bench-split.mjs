@@ -98,7 +98,7 @@ try {
 	const splitBody = JSON.stringify({ children: [{ massUg: CHILD_UG }, { massUg: CHILD_UG }] });
 	// a split counts only with both children in its answer
 	const split = async (code) => {
-		const r = await send('POST', `/api/items/${code}/splits`, splitBody);
+		const r = await send('POST', `/api/items/${encodeURIComponent(code)}/splits`, splitBody);
 		return { ...r, status: r.status === 201 && r.body.children?.length === 2 ? 201 : r.status };
 	};
 	for (const code of httpParents) await split(code); // warm-up
@@ -197,16 +197,16 @@ COMMIT;
 		// answer parsed by this client as well
 		const times = [];
 		const parsed = [];
-		const first = await send('GET', `/api/items/${target}/lineage`, undefined, true);
+		const first = await send('GET', `/api/items/${encodeURIComponent(target)}/lineage`, undefined, true);
 		if (first.status !== 200) throw new Error(`lineage failed: ${first.body}`);
 		const answer = JSON.parse(first.body.toString('utf8'));
 		const size = answer.descendants.length + answer.ancestors.length;
 		const length = first.body.length;
 		for (const parse of [false, true]) {
 			for (let i = 0; i < runs + 5; i++) {
-				if (change && (await api('POST', `/api/items/${other}/splits`, { children: [{ massUg: 10 }] })).status !== 201) throw new Error('the bystander split failed');
+				if (change && (await api('POST', `/api/items/${encodeURIComponent(other)}/splits`, { children: [{ massUg: 10 }] })).status !== 201) throw new Error('the bystander split failed');
 				const s = performance.now();
-				const r = await send('GET', `/api/items/${target}/lineage`, undefined, !parse);
+				const r = await send('GET', `/api/items/${encodeURIComponent(target)}/lineage`, undefined, !parse);
 				const done = performance.now();
 				if (r.status !== 200) throw new Error(`lineage failed: ${r.body}`);
 				// every answer is the whole lineage (the bystander is in another tree)

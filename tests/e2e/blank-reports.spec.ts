@@ -13,14 +13,14 @@ test('a lab member uploads the demo blank-control table with the progress shown,
 	await signInAsFennick(page, '/reports');
 
 	// the seeded demo report's original table is the file to upload again
-	await page.getByRole('link', { name: /Hot-water extract of a Chamber A aliquot/ }).first().click();
+	await page.getByRole('link', { name: /Hot-water extract of a cell 1 aliquot/ }).first().click();
 	await expect(page.getByTestId('report-title')).toBeVisible();
 	const [download] = await Promise.all([page.waitForEvent('download'), page.getByTestId('original-file').click()]);
 	const file = await download.path();
-	expect(download.suggestedFilename()).toBe('fennick-chamber-a-run1.csv');
+	expect(download.suggestedFilename()).toBe('fennick-cell-1-run1.csv');
 
 	await page.goto('/reports/new');
-	await page.getByLabel('Title').fill('Chamber A aliquot, repeat injection');
+	await page.getByLabel('Title').fill('Cell 1 aliquot, repeat injection');
 	await page.getByLabel(/CSV file/).setInputFiles(file);
 	await page.getByRole('button', { name: 'Upload and compute' }).click();
 	const bar = page.getByRole('progressbar', { name: 'Upload of the blank-control table' });
@@ -29,7 +29,7 @@ test('a lab member uploads the demo blank-control table with the progress shown,
 	await expect(page.getByTestId('upload-done')).toContainText('flagged result');
 	await page.getByRole('link', { name: 'Open the report' }).click();
 
-	await expect(page.getByTestId('report-title')).toHaveText('Chamber A aliquot, repeat injection');
+	await expect(page.getByTestId('report-title')).toHaveText('Cell 1 aliquot, repeat injection');
 	const flags = page.getByTestId('flag-list');
 	await expect(flags).toContainText('possible terrestrial contamination');
 	await expect(flags).toContainText('below the detection limit');
@@ -56,7 +56,7 @@ test('a lab member uploads the demo blank-control table with the progress shown,
 test('a bad table is refused on the upload page with its row and column', async ({ page }) => {
 	await signInAsFennick(page, '/reports/new');
 	await page.getByLabel('Title').fill('semicolon table');
-	await page.getByLabel(/CSV file/).setInputFiles({ name: 'bad.csv', mimeType: 'text/csv', buffer: Buffer.from('analyte;enantiomer;sample_or_blank;replicate;value;unit\nalanine;L;TRN-00011-U;1;2;nmol/g\n') });
+	await page.getByLabel(/CSV file/).setInputFiles({ name: 'bad.csv', mimeType: 'text/csv', buffer: Buffer.from('analyte;enantiomer;sample_or_blank;replicate;value;unit\nalanine;L;TRN-00011/U;1;2;nmol/g\n') });
 	await page.getByRole('button', { name: 'Upload and compute' }).click();
 	await expect(page.getByTestId('upload-problem')).toContainText('row 1: the columns are separated by semicolons');
 });

@@ -99,7 +99,7 @@ test('the mass-share chart of each collection shows every part, enlarged beside 
 test('the blank-control report draws its blanks, limits and ee with their values as text', async ({ page }, info) => {
 	await signIn(page, 'analyst@fennick.example');
 	await page.goto('/reports');
-	await page.getByRole('link', { name: /Hot-water extract of a Chamber A aliquot/ }).first().click();
+	await page.getByRole('link', { name: /Hot-water extract of a cell 1 aliquot/ }).first().click();
 	await expect(page.getByTestId('report-title')).toBeVisible();
 
 	const ee = page.getByTestId('ee-chart');

@@ -25,7 +25,7 @@ test('a lab asks, the curator grants, splits and ships, the lab signs and report
 	await lab.getByLabel('Collection').selectOption('HLF');
 	await lab.getByLabel('Mass asked for (mg)').fill('0.800');
 	await lab.getByLabel('Analysis plan').fill('Hot-water extraction, derivatisation and chiral GC-MS with two procedural blanks.');
-	await lab.getByLabel('Scientific justification').fill('To compare matrix amino acids with the chamber A fines of the returned sample.');
+	await lab.getByLabel('Scientific justification').fill('To compare matrix amino acids with the cell 1 fines of the returned sample.');
 	await lab.getByRole('button', { name: 'Submit for review' }).click();
 	await expect(lab).toHaveURL(/\/requests\/[0-9a-f-]{36}$/);
 	await expect(lab.getByTestId('request-state')).toHaveText('Submitted');
@@ -55,6 +55,7 @@ test('a lab asks, the curator grants, splits and ships, the lab signs and report
 	await curator.getByLabel('Container').fill('Crimp-sealed PTFE vial in a steel can');
 	await curator.getByLabel('Coolant').selectOption('dry_ice');
 	await expect(curator.getByRole('note')).toContainText("carrier's dangerous-goods rules");
+	await curator.getByLabel('Dry ice, net mass (kg)').fill('2.5');
 	await curator.getByLabel('Carrier').fill('Corvane Courier');
 	await curator.getByRole('button', { name: 'Prepare transfer' }).click();
 	await expect(curator).toHaveURL(/\/transfers\/[0-9a-f-]{36}$/);

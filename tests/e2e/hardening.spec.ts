@@ -13,7 +13,7 @@ const ROLES = [
 	{ role: 'admin', email: 'admin@brightwater.example' }
 ] as const;
 const PAGES = new Set(walkRoutes().filter((r) => !r.id.startsWith('/api') && r.methods.includes('GET')).map((r) => r.id));
-const FACILITY_ITEM = 'TRN-00001-Y';
+const FACILITY_ITEM = encodeURIComponent('TRN-00001/Y');
 
 async function watchCsp(page: Page): Promise<() => Promise<string[]>> {
 	const console: string[] = [];
@@ -91,7 +91,7 @@ test('the split flow done with the keyboard alone', async ({ page }) => {
 	await page.keyboard.type('200');
 	await tabTo((f) => f.tag === 'BUTTON' && /record the split/i.test(f.text), 'the split button');
 	await page.keyboard.press('Enter');
-	await expect(page).toHaveURL(new RegExp(`/items/${code}\\?split=`));
+	await expect(page).toHaveURL(new RegExp(`/items/${encodeURIComponent(code)}\\?split=`));
 	const item = await (await page.request.get(`/api/items/${code}`)).json();
 	expect(item.item?.massUg ?? item.massUg).toBe(700_000);
 	expect(await violations()).toEqual([]);

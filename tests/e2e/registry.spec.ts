@@ -12,7 +12,7 @@ test('a curator splits a demo specimen into three aliquots and sees lineage and 
 	await signIn(page, 'curator@brightwater.example');
 	await page.goto('/items');
 	await page.getByLabel('Code or text').fill('broken face exposing matrix');
-	const link = page.getByRole('table').getByRole('link', { name: /^HLF-\d{5}-[0-9A-Z]$/ }).first();
+	const link = page.getByRole('table').getByRole('link', { name: /^HLF-\d{5}\/[0-9A-Z]$/ }).first();
 	await expect(page.getByRole('table').getByRole('row')).toHaveCount(2);
 	const code = (await link.textContent())!.trim();
 	await link.click();
@@ -34,7 +34,7 @@ test('a curator splits a demo specimen into three aliquots and sees lineage and 
 	await page.getByLabel('Aliquot 3 (mg)').fill('4.000');
 	await page.getByRole('button', { name: 'Record the split' }).click();
 
-	await page.waitForURL(new RegExp(`/items/${code}\\?split=`));
+	await page.waitForURL(new RegExp(`/items/${encodeURIComponent(code)}\\?split=`));
 	const tree = page.getByTestId('lineage-tree');
 	await expect(tree).toContainText('3 direct aliquots');
 	const children = tree.locator(`[data-children-of="${code}"] > li`);
@@ -59,7 +59,7 @@ test('the lineage tree opens in place, one level at a time, from the API', async
 	const toggle = tree.getByRole('button', { name: /^Open the \d+ aliquots of/ }).first();
 	const label = (await toggle.getAttribute('aria-label'))!;
 	const [, n, child] = /Open the (\d+) aliquots of (\S+)/.exec(label)!;
-	const fetched = page.waitForResponse((r) => r.url().includes(`/api/items/${child}/lineage?depth=1`) && r.status() === 200);
+	const fetched = page.waitForResponse((r) => r.url().includes(`/api/items/${encodeURIComponent(child)}/lineage?depth=1`) && r.status() === 200);
 	await toggle.click();
 	await fetched;
 	await expect(tree.locator(`[data-children-of="${child}"] > li`)).toHaveCount(Number(n));

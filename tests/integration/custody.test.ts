@@ -3,35 +3,13 @@ import { spawn } from 'node:child_process';
 import { readFileSync, writeFileSync } from 'node:fs';
 import { client, signedIn, DEMO, type Client } from '../helpers/http';
 import { waitForMail } from '../helpers/mail';
+import { grantedAndSetAside, newRequest } from '../helpers/custody';
 import { asSuperuser, snapshot } from '../helpers/scratch-db';
 import { db, closeDb } from '../../src/lib/server/db';
 
 const DB = process.env.REGOLOG_DB_NAME ?? 'regolog_test';
 const PASSWORD = process.env.REGOLOG_DEMO_PASSWORD || 'brightwater-demo';
 afterAll(() => closeDb());
-
-const plan = 'Chiral GC-MS of derivatised amino acids with two procedural blanks.';
-const why = 'Needed to test whether the isovaline excess seen in chamber A is indigenous.';
-
-async function newRequest(lab: Client, collection: string, massUg: number) {
-	const r = await lab.post('/api/requests', { collection, massUg, analysisPlan: plan, justification: why, destructive: true, techniques: ['chiral GC-MS'], submit: true });
-	expect(r.status, JSON.stringify(r.body)).toBe(201);
-	return r.body.request.id as string;
-}
-
-/** A granted request with a fresh aliquot of its size set aside, ready to ship. */
-async function grantedAndSetAside(lab: Client, curator: Client, collection: string, massUg: number) {
-	const id = await newRequest(lab, collection, massUg);
-	expect((await curator.post(`/api/requests/${id}/grant`, { grantedUg: massUg })).status).toBe(200);
-	const items = (await curator.get(`/api/items?collection=${collection}&state=stored&holder=facility&kind=specimen`)).body.items as { code: string; massUg: number }[];
-	const parent = items.sort((a, b) => b.massUg - a.massUg)[0];
-	const split = await curator.post(`/api/items/${parent.code}/splits`, { children: [{ massUg }] });
-	expect(split.status, JSON.stringify(split.body)).toBe(201);
-	const code = split.body.children[0].code as string;
-	const ear = await curator.post(`/api/requests/${id}/earmark`, { itemCode: code });
-	expect(ear.status, JSON.stringify(ear.body)).toBe(200);
-	return { id, code };
-}
 
 const packing = { container: 'PTFE vial in steel can', seal: 'S-1', coolant: 'none', carrier: 'Corvane Courier', trackingRef: 'T-1' };
 
@@ -215,16 +193,16 @@ describe('bad input changes nothing', () => {
 			[() => curator.post(`/api/requests/${id}/grant`, { grantedUg: 101 }), 422, /more than/],
 			[() => curator.post(`/api/requests/${id}/grant`, { grantedUg: 0 }), 422, /more than zero/],
 			[() => curator.post(`/api/requests/${id}/decline`, { reason: '' }), 422, /reason/],
-			[() => curator.post(`/api/requests/${id}/earmark`, { itemCode: 'TRN-00001-A' }), 409, /granted/],
+			[() => curator.post(`/api/requests/${id}/earmark`, { itemCode: 'TRN-00001/A' }), 409, /granted/],
 			[() => curator.post(`/api/requests/not-an-id/grant`, { grantedUg: 5 }), 404, /No such request/],
 			[() => curator.post('/api/transfers', { requestId: id }), 422, /container/],
 			[() => curator.post('/api/transfers', { requestId: id, container: 'vial', coolant: 'liquid helium' }), 422, /coolant/],
 			[() => curator.post('/api/transfers', { requestId: id, container: 'vial' }), 409, /granted/],
 			[() => curator.post('/api/transfers', { requestId: id, container: 'vial', expectedArrival: 'tomorrow' }), 422, /YYYY-MM-DD/],
-			[() => lab.post('/api/transfers', { container: 'vial', itemCodes: ['TRN-00001-Z'] }), 400, /check character/],
+			[() => lab.post('/api/transfers', { container: 'vial', itemCodes: ['TRN-00001/Z'] }), 400, /check character/],
 			[() => curator.post(`/api/transfers/00000000-0000-4000-8000-000000000000/sign`, { meaning: 'dispatched' }), 422, /password/],
 			[() => curator.post(`/api/transfers/00000000-0000-4000-8000-000000000000/sign`, { meaning: 'stolen', password: PASSWORD }), 422, /meaning/],
-			[() => lab.post(`/api/requests/${id}/usage`, { itemCode: 'TRN-00001-Y', consumedUg: 1, returnedUg: 0, resultsSummary: 'short' }), 422, /resultsSummary/]
+			[() => lab.post(`/api/requests/${id}/usage`, { itemCode: 'TRN-00001/Y', consumedUg: 1, returnedUg: 0, resultsSummary: 'short' }), 422, /resultsSummary/]
 		];
 		for (const [call, status, message] of cases) {
 			const r = await call();

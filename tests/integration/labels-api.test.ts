@@ -2,10 +2,10 @@
 // print options and batch limits. Every failure has the documented JSON error shape.
 import { describe, it, expect, beforeAll } from 'vitest';
 import { client, signedIn, DEMO, type Client } from '../helpers/http';
-import { formatCode } from '../../src/lib/domain/codes';
+import { formatCode, itemPath, legacyCode } from '../../src/lib/domain/codes';
 
-const good = formatCode('TRN', 42); // TRN-00042-G
-const wrong = 'TRN-00042-H';
+const good = formatCode('TRN', 42); // TRN-00042/G
+const wrong = 'TRN-00042/H';
 
 let curator: Client;
 beforeAll(async () => {
@@ -20,17 +20,19 @@ describe('GET /api/items/{code}/label', () => {
 	});
 
 	it('refuses a wrong check character (ISO/IEC 7064:2003 MOD 37,36) with a clear message', async () => {
-		const r = await curator.get(`/api/items/${wrong}/label?format=thermal`);
-		expect(r.status).toBe(400);
-		expect(r.body.error.code).toBe('wrong_check_character');
-		expect(r.body.error.message).toContain('check character is H, expected G');
+		for (const path of [itemPath(wrong), wrong, legacyCode(wrong)]) {
+			const r = await curator.get(`/api/items/${path}/label?format=thermal`);
+			expect(r.status, path).toBe(400);
+			expect(r.body.error.code).toBe('wrong_check_character');
+			expect(r.body.error.message).toContain('check character is H, expected G');
+		}
 	});
 
 	it('refuses text that is not an item code', async () => {
 		const r = await curator.get('/api/items/TRN-42/label');
 		expect(r.status).toBe(400);
 		expect(r.body.error.code).toBe('invalid_code');
-		expect(r.body.error.message).toContain('PREFIX-NNNNN-C');
+		expect(r.body.error.message).toContain('PREFIX-NNNNN/C');
 	});
 
 	it('refuses an unknown format, an offset beyond ±10 mm and a start position off the sheet', async () => {
@@ -55,7 +57,7 @@ describe('POST /api/labels', () => {
 	});
 
 	it('names every code with a wrong check character, by its position', async () => {
-		const r = await curator.post('/api/labels', { codes: [good, wrong, 'HLF-00001-0'], format: 'a4' });
+		const r = await curator.post('/api/labels', { codes: [good, wrong, 'HLF-00001/0'], format: 'a4' });
 		expect(r.status).toBe(400);
 		expect(r.body.error.code).toBe('wrong_check_character');
 		expect(Object.keys(r.body.error.fields)).toEqual(['codes.1', 'codes.2']);
@@ -75,7 +77,7 @@ describe('POST /api/labels', () => {
 
 describe('GET /api/scan/{code}', () => {
 	it('refuses a wrong check character before looking anything up', async () => {
-		const r = await curator.get(`/api/scan/${wrong}`);
+		const r = await curator.get(`/api/scan/${itemPath(wrong)}`);
 		expect(r.status).toBe(400);
 		expect(r.body.error.code).toBe('wrong_check_character');
 	});

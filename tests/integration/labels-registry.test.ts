@@ -4,7 +4,7 @@ import { describe, it, expect, beforeAll, afterAll } from 'vitest';
 import { QueryTypes } from 'sequelize';
 import { signedIn, DEMO, BASE, type Client } from '../helpers/http';
 import { db, closeDb } from '../../src/lib/server/db';
-import { formatCode } from '../../src/lib/domain/codes';
+import { formatCode, itemPath } from '../../src/lib/domain/codes';
 import { rasterise, decodePage, decodeAt, pdfinfo } from '../helpers/pdf';
 
 let curator: Client;
@@ -43,7 +43,7 @@ describe('label of one item', () => {
 		expect(r.type).toBe('application/pdf');
 		const info = pdfinfo(r.bytes);
 		expect([info.width, info.height]).toEqual([144, 72]); // ISO 32000-1: 50.8 × 25.4 mm at 1/72 in
-		expect(decodePage(rasterise(r.bytes, 1, 600))?.data).toBe(`${BASE}/items/${facilityCode}`);
+		expect(decodePage(rasterise(r.bytes, 1, 600))?.data).toBe(`${BASE}/items/${itemPath(facilityCode)}`);
 	});
 
 	it('answers 404 for an unknown code', async () => {
@@ -67,8 +67,8 @@ describe('batch labels', () => {
 		expect(r.status).toBe(200);
 		const img = rasterise(r.bytes, 1, 300);
 		// A4 grid: 3 columns at 21.6 + 58·c mm, rows at 14.3 + 27·r mm
-		expect(decodeAt(img, 21.6, 14.3, 50.8, 25.4)?.data).toBe(`${BASE}/items/${codes[0]}`);
-		expect(decodeAt(img, 21.6, 14.3 + 27, 50.8, 25.4)?.data).toBe(`${BASE}/items/${codes[3]}`);
+		expect(decodeAt(img, 21.6, 14.3, 50.8, 25.4)?.data).toBe(`${BASE}/items/${itemPath(codes[0])}`);
+		expect(decodeAt(img, 21.6, 14.3 + 27, 50.8, 25.4)?.data).toBe(`${BASE}/items/${itemPath(codes[3])}`);
 	});
 
 	it('answers 404 naming the codes that are unknown or out of sight, and prints nothing', async () => {
@@ -80,7 +80,7 @@ describe('batch labels', () => {
 
 describe('scan check', () => {
 	it('finds a visible item and refuses an unknown one', async () => {
-		expect((await curator.get(`/api/scan/${facilityCode}`)).body).toEqual({ code: facilityCode, href: `/items/${facilityCode}` });
+		expect((await curator.get(`/api/scan/${facilityCode}`)).body).toEqual({ code: facilityCode, href: `/items/${itemPath(facilityCode)}` });
 		expect((await curator.get(`/api/scan/${unknown}`)).status).toBe(404);
 		expect((await fennick.get(`/api/scan/${facilityCode}`)).status).toBe(404);
 	});

@@ -1,6 +1,6 @@
 import { describe, it, expect, beforeAll } from 'vitest';
 import { inflateSync } from 'node:zlib';
-import { formatCode } from '../../src/lib/domain/codes';
+import { formatCode, itemPath, legacyCode } from '../../src/lib/domain/codes';
 import {
 	renderLabels,
 	renderLabelsToBuffer,
@@ -44,13 +44,15 @@ describe('thermal label', () => {
 	it('holds the item URL in a QR code that an independent ISO/IEC 18004 reader (jsQR) decodes', () => {
 		const img = rasterise(pdf, 1, 600);
 		const qr = decodePage(img);
-		expect(qr?.data).toBe(`${ORIGIN}/items/TRN-00042-G`);
+		// the code's slash is percent-encoded, so the URL's path keeps one segment per code
+		expect(qr?.data).toBe(`${ORIGIN}/items/TRN-00042%2FG`);
+		expect(qr?.data).toBe(`${ORIGIN}/items/${itemPath(one.code)}`);
 		expect(qr?.data).toBe(itemUrl(one.code, ORIGIN));
 	});
 
 	it('still decodes when printed as binary dots at 203 dpi, like a thermal head', () => {
 		const img = rasterise(pdf, 1, 203, true);
-		expect(decodePage(img)?.data).toBe(`${ORIGIN}/items/TRN-00042-G`);
+		expect(decodePage(img)?.data).toBe(`${ORIGIN}/items/TRN-00042%2FG`);
 	});
 
 	it('is 50.8 × 25.4 mm = 144 × 72 pt (ISO 32000-1 §8.3.2.3: 1 pt = 1/72 in; 50.8 mm = 2 in)', () => {
@@ -72,7 +74,9 @@ describe('thermal label', () => {
 
 	it('prints the code with its check character, collection, mass ± U, date, holder and mark as text', () => {
 		const text = pdftext(pdf).replace(/\s+/g, ' ');
-		expect(text).toContain('TRN-00042-G');
+		expect(text).toContain('TRN-00042/G');
+		// what the slash sets apart is said on the label itself
+		expect(text).toContain('/G is check');
 		expect(text).toContain('TRN · Tarnwick regolith');
 		expect(text).toContain('2.184 ± 0.002 mg');
 		expect(text).toContain('2031-04-12');
@@ -102,7 +106,7 @@ describe('thermal label', () => {
 	it('decodes for a long public origin, which needs a larger QR version', async () => {
 		const origin = 'https://regolog-curation.facility-registry.brightwater.example:8443/branch/north';
 		const long = await renderLabelsToBuffer([one], { format: 'thermal', origin });
-		expect(decodePage(rasterise(long, 1, 600))?.data).toBe(`${origin}/items/TRN-00042-G`);
+		expect(decodePage(rasterise(long, 1, 600))?.data).toBe(`${origin}/items/TRN-00042%2FG`);
 	});
 });
 
@@ -119,7 +123,10 @@ function pageContent(pdf: Buffer, n = 0): string {
 
 describe('mass line', () => {
 	it('shows U (k = 2) rounded up to the balance decimals, never understated (JCGM 100:2008, 7.2.6)', () => {
-		// JCGM 100:2008 §3 check value: d = 1 µg, s = 0.5 µg → U = 1.633 µg → shown as 0.002 mg.
+		// This project's design value (DESIGN §3.1), not one printed in the GUM: computed with JCGM 100:2008
+		// 5.1.2 (independent inputs) and F.2.2.1 (resolution d contributes d/√12) from d = 1 µg, s = 0.5 µg:
+		// u_net = √(2·(s² + d²/12)) = √(2·(0.25 + 0.0833)) = 0.8165 µg, U = k·u = 2 × 0.8165 = 1.633 µg (k = 2,
+		// GUM 6.2–6.3) → shown as 0.002 mg.
 		expect(massLine({ massUg: 2184000, expandedUg: 1.633 })).toBe('2184.000 ± 0.002 mg');
 		expect(massLine({ massUg: 2184, expandedUg: 12, decimals: 2 })).toBe('2.18 ± 0.02 mg');
 		expect(massLine({ massUg: 2184, expandedUg: 10, decimals: 2 })).toBe('2.18 ± 0.01 mg');
@@ -153,7 +160,7 @@ describe('sheets', () => {
 				const x = g.left + (slot % g.cols) * g.pitchX;
 				const y = g.top + Math.floor(slot / g.cols) * g.pitchY;
 				const qr = decodeAt(img, x, y, LABEL.w, LABEL.h);
-				if (slot < onPage) expect(qr?.data, `page ${page} slot ${slot + 1}`).toBe(`${ORIGIN}/items/${labels[(page - 1) * 30 + slot].code}`);
+				if (slot < onPage) expect(qr?.data, `page ${page} slot ${slot + 1}`).toBe(`${ORIGIN}/items/${itemPath(labels[(page - 1) * 30 + slot].code)}`);
 				else expect(qr, `page ${page} slot ${slot + 1} stays blank`).toBeNull();
 			}
 		}
@@ -167,10 +174,10 @@ describe('sheets', () => {
 		const last = rasterise(pdf, 1, 300);
 		const x = g.left + 2 * g.pitchX;
 		const y = g.top + 8 * g.pitchY;
-		expect(decodeAt(last, x, y, LABEL.w, LABEL.h)?.data).toBe(`${ORIGIN}/items/${labels[26].code}`);
+		expect(decodeAt(last, x, y, LABEL.w, LABEL.h)?.data).toBe(`${ORIGIN}/items/${itemPath(labels[26].code)}`);
 		const second = rasterise(pdf, 2, 300);
-		expect(decodeAt(second, g.left, g.top, LABEL.w, LABEL.h)?.data).toBe(`${ORIGIN}/items/${labels[27].code}`);
-		expect(decodeAt(second, g.left + 2 * g.pitchX, g.top, LABEL.w, LABEL.h)?.data).toBe(`${ORIGIN}/items/${labels[29].code}`);
+		expect(decodeAt(second, g.left, g.top, LABEL.w, LABEL.h)?.data).toBe(`${ORIGIN}/items/${itemPath(labels[27].code)}`);
+		expect(decodeAt(second, g.left + 2 * g.pitchX, g.top, LABEL.w, LABEL.h)?.data).toBe(`${ORIGIN}/items/${itemPath(labels[29].code)}`);
 		expect(decodeAt(second, g.left, g.top + g.pitchY, LABEL.w, LABEL.h)).toBeNull();
 	});
 
@@ -181,8 +188,8 @@ describe('sheets', () => {
 		const img = rasterise(pdf, 1, 300);
 		const at = (slot: number) => decodeAt(img, g.left + (slot % 3) * g.pitchX, g.top + Math.floor(slot / 3) * g.pitchY, LABEL.w, LABEL.h);
 		for (const s of [0, 1, 2, 3]) expect(at(s), `slot ${s + 1} is left free`).toBeNull();
-		expect(at(4)?.data).toBe(`${ORIGIN}/items/${labels[0].code}`);
-		expect(at(6)?.data).toBe(`${ORIGIN}/items/${labels[2].code}`);
+		expect(at(4)?.data).toBe(`${ORIGIN}/items/${itemPath(labels[0].code)}`);
+		expect(at(6)?.data).toBe(`${ORIGIN}/items/${itemPath(labels[2].code)}`);
 	});
 
 	it('shifts the whole grid by the printer offsets', async () => {
@@ -199,7 +206,9 @@ describe('sheets', () => {
 
 describe('input checks', () => {
 	it('refuses a code whose check character is wrong', async () => {
-		await expect(render([label(0, { code: 'TRN-00042-Z' })], { format: 'thermal' })).rejects.toThrow(/check character is Z, expected G/);
+		await expect(render([label(0, { code: 'TRN-00042/Z' })], { format: 'thermal' })).rejects.toThrow(/check character is Z, expected G/);
+		// the older form is read on input, but a label is always printed in the current one
+		await expect(render([label(0, { code: legacyCode(formatCode('TRN', 42)) })], { format: 'thermal' })).rejects.toThrow(/PREFIX-NNNNN\/C/);
 	});
 
 	it('refuses offsets beyond ±10 mm and a start position off the sheet', () => {

@@ -20,7 +20,7 @@ describe('registering a parent specimen', () => {
 		const item = r.body.item;
 		expect(parseCode(item.code)).toMatchObject({ ok: true, prefix: 'HLF' });
 		expect(item).toMatchObject({ kind: 'specimen', massUg: 5_432_100, initialMassUg: 5_432_100, state: 'stored', parentCode: null, container: 'PTFE jar', holder: { kind: 'facility' } });
-		expect(r.headers.get('location')).toBe(`/api/items/${item.code}`);
+		expect(r.headers.get('location')).toBe(`/api/items/${encodeURIComponent(item.code)}`);
 		const ledger = await curator.get(`/api/items/${item.code}/ledger`);
 		expect(ledger.body.entries).toEqual([expect.objectContaining({ seq: 1, kind: 'registered', deltaUg: 5_432_100, balanceUg: 5_432_100 })]);
 		expect(ledger.body.closes).toBe(true);

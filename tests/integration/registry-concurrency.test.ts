@@ -48,7 +48,7 @@ describe('concurrent splits through the HTTP API', () => {
 		}
 		// serials stay gapless and unique across all the concurrent splits
 		const list = await curator.get('/api/items?collection=HLF&sort=code&dir=desc&limit=40');
-		const serials = list.body.items.map((i: { code: string }) => Number(i.code.split('-')[1]));
+		const serials = list.body.items.map((i: { code: string }) => Number(i.code.split(/[-/]/)[1]));
 		expect(serials).toEqual(serials.map((_: number, k: number) => serials[0] - k));
 	});
 
@@ -63,7 +63,7 @@ describe('concurrent splits through the HTTP API', () => {
 		const answers = await Promise.all(work);
 		expect(answers.map((a) => a.status)).toEqual(answers.map(() => 201));
 		const list = await curator.get('/api/items?collection=HLF&sort=code&dir=desc&limit=68');
-		const serials = list.body.items.map((i: { code: string }) => Number(i.code.split('-')[1]));
+		const serials = list.body.items.map((i: { code: string }) => Number(i.code.split(/[-/]/)[1]));
 		// the 24 splits' 48 children and the 20 registrations: the newest 68 serials, without a gap
 		expect(serials).toHaveLength(68);
 		expect(serials).toEqual(serials.map((_: number, k: number) => serials[0] - k));

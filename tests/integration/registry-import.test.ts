@@ -42,7 +42,7 @@ describe('CSV import of parent specimens', () => {
 			'HLF,1.0005,finer than a microgram,jar,C-4,,',
 			'HLF,abc,not a number,jar,C-4,,',
 			'HLF,2.000,,jar,C-4,,',
-			'ICE,0.100,below minimum weight,holder,rack V,Kestrel UM-1 ultramicro,',
+			'ICE,0.100,below minimum weight,holder,rack V,Tamberlow UM-1 ultramicro,',
 			'HLF,5.000,unknown balance,jar,C-4,Nonesuch balance,'
 		].join('\n');
 		await unchanged(async () => {

@@ -144,8 +144,9 @@ const enantiomers = (l: number[], d: number[], bl: number[], bd: number[], u: nu
 
 describe('enantiomeric excess (DESIGN §3.8)', () => {
 	it('check value: L = 60, D = 40, u = 1 each → ee = 20 %, u_ee = 1.44 %', () => {
-		// ee per IUPAC Gold Book, "enantiomer excess"; u_ee by first-order GUM propagation; the check
-		// value is the one in DESIGN.md §3.8 (2·√(40² + 60²)/100² = 0.014422), not a published one
+		// ee per IUPAC Gold Book, "enantiomer excess": (60 − 40)/(60 + 40) = 0.20; u_ee by first-order GUM
+		// propagation, u_ee = 2·√(D²·u_L² + L²·u_D²)/(L + D)² = 2·√(40² + 60²)/100² = 2 × 72.111/10 000 = 0.014422.
+		// A check value from this project's design (DESIGN §3.8), not a published one.
 		const r = firstOrderEe({ value: 60, u: 1 }, { value: 40, u: 1 })!;
 		expect(r.ee).toBeCloseTo(0.2, 12);
 		expect(r.u * 100).toBeCloseTo(1.44, 2);

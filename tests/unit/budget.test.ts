@@ -3,7 +3,8 @@ import fc from 'fast-check';
 import { allocatableUg, reserveUg, splitBudget, type SplitInput } from '../../src/lib/domain/budget';
 import { MassInputError, expanded, minimumWeight, netUncertainty } from '../../src/lib/domain/mass';
 
-// JCGM 100:2008 net-mass uncertainty for d = 1 µg, s = 0.5 µg (DESIGN §3.1): 0.8165 µg
+// Net-mass uncertainty for d = 1 µg, s = 0.5 µg: this project's design value (DESIGN §3.1), not a published
+// one, computed with JCGM 100:2008 5.1.2 and F.2.2.1: u_net = √(2·(s² + d²/12)) = √(2·(0.25 + 0.0833)) = 0.8165 µg
 const u = netUncertainty({ d: 1, s: 0.5 });
 const w = (massUg: number) => ({ massUg, u });
 const codes = (b: ReturnType<typeof splitBudget>) => b.issues.map((i) => i.code);
@@ -109,7 +110,8 @@ describe('split budget (DESIGN §3.3)', () => {
 	});
 
 	it('flags children below the minimum weight and asks for a reason', () => {
-		// USP <41>: d = 1 µg, s = 0.3 µg → m_min = 820 µg
+		// USP <41>: d = 1 µg, s = 0.3 µg; 0.41·d = 0.41 µg exceeds s and replaces it, so m_min = 2000 × 0.41 µg = 820 µg
+		// (DESIGN §3.2's check value, derived here)
 		const mMin = minimumWeight({ d: 1, s: 0.3 });
 		const b = splitBudget(
 			{ parentBefore: w(10_000), children: [w(5_000), w(819), w(820)], parentAfter: w(3_361) },
@@ -222,7 +224,8 @@ describe('pristine reserve (DESIGN §3.4, common curation practice)', () => {
 	});
 
 	it('allocatable = pristine − reserve − earmarked − ⌈U⌉', () => {
-		// DESIGN §5: 2.184 g chamber, 75 % reserve, 100 mg earmarked, U = 1.633 µg (JCGM 100:2008, 6.2)
+		// DESIGN §5's 2.184 g return cell, 75 % reserve (0.75 × 2 184 000 µg = 1 638 000 µg), 100 mg earmarked, and
+		// U = k·u_net = 2 × 0.8165 = 1.633 µg (JCGM 100:2008 6.2–6.3; design value, see above), taken up to ⌈U⌉ = 2 µg
 		const U = expanded(u);
 		expect(allocatableUg({ pristineUg: 2_184_000, fraction: 0.75, earmarkedUg: 100_000, expandedUg: U })).toBe(
 			2_184_000 - 1_638_000 - 100_000 - 2

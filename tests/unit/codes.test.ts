@@ -1,6 +1,6 @@
 import { describe, it, expect } from 'vitest';
 import fc from 'fast-check';
-import { checkChar, formatCode, parseCode } from '../../src/lib/domain/codes';
+import { checkChar, codeForFileName, formatCode, itemHref, itemPath, legacyCode, parseCode } from '../../src/lib/domain/codes';
 
 const ALPHABET = '0123456789ABCDEFGHIJKLMNOPQRSTUVWXYZ';
 
@@ -23,7 +23,7 @@ const swap = (s: string, i: number) => s.slice(0, i) + s[i + 1] + s[i] + s.slice
 
 describe('check character (ISO/IEC 7064:2003, MOD 37,36)', () => {
 	it('matches the published GRid example A1-2425G-ABC1234002-M', () => {
-		// The Global Release Identifier uses ISO/IEC 7064 MOD 37,36; its documented example
+		// The Global Release Identifier uses ISO/IEC 7064 MOD 37,36; its documented example, typed in from memory
 		expect(checkChar('A12425GABC1234002')).toBe('M');
 		expect(checkChar('A12425GABC1234002')).not.toBe('N');
 	});
@@ -44,11 +44,11 @@ describe('check character (ISO/IEC 7064:2003, MOD 37,36)', () => {
 });
 
 describe('formatCode / parseCode', () => {
-	it('formats PREFIX-NNNNN-C with the serial zero-padded to 5 digits', () => {
+	it('formats PREFIX-NNNNN/C with the serial zero-padded to 5 digits', () => {
 		const code = formatCode('TRN', 42);
-		expect(code).toMatch(/^TRN-00042-[0-9A-Z]$/);
+		expect(code).toMatch(/^TRN-00042\/[0-9A-Z]$/);
 		expect(code.at(-1)).toBe(checkChar('TRN00042'));
-		expect(formatCode('HLF', 123456)).toMatch(/^HLF-123456-[0-9A-Z]$/);
+		expect(formatCode('HLF', 123456)).toMatch(/^HLF-123456\/[0-9A-Z]$/);
 	});
 
 	it('refuses bad prefixes and serials', () => {
@@ -92,7 +92,38 @@ describe('formatCode / parseCode', () => {
 			if (!bad.ok) expect(bad.kind, text).toBe('malformed');
 		}
 		expect(parseCode('TRN-42-X')).toMatchObject({ reason: expect.stringMatching(/at least 5 digits/) });
-		expect(parseCode('nonsense')).toMatchObject({ reason: expect.stringMatching(/expected PREFIX-NNNNN-C/) });
+		expect(parseCode('nonsense')).toMatchObject({ reason: expect.stringMatching(/expected PREFIX-NNNNN\/C/) });
+	});
+
+	it('reads the older form with a hyphen before the check character as the same code', () => {
+		fc.assert(
+			fc.property(prefixArb, serialArb, (prefix, serial) => {
+				const code = formatCode(prefix, serial);
+				const old = legacyCode(code);
+				expect(old).toBe(code.replace('/', '-'));
+				expect(parseCode(old)).toEqual({ ok: true, prefix, serial, code });
+				expect(parseCode(old.toLowerCase())).toEqual({ ok: true, prefix, serial, code });
+			})
+		);
+		const code = formatCode('TRN', 42);
+		const wrong = code.endsWith('0') ? '1' : '0';
+		expect(parseCode(legacyCode(code).slice(0, -1) + wrong)).toMatchObject({ ok: false, kind: 'check' });
+	});
+
+	it('reads a code whose slash is percent-encoded or typographic, and writes it for a URL and a file name', () => {
+		const code = formatCode('TRN', 42);
+		const encoded = itemPath(code);
+		expect(encoded).toBe(code.replace('/', '%2F'));
+		expect(itemHref(code)).toBe(`/items/${encoded}`);
+		expect(decodeURIComponent(encoded)).toBe(code);
+		expect(parseCode(encoded)).toMatchObject({ ok: true, code });
+		expect(parseCode(encoded.toLowerCase())).toMatchObject({ ok: true, code });
+		expect(parseCode(code.replace('/', '\u2215'))).toMatchObject({ ok: true, code });
+		expect(codeForFileName(code)).toBe(code.replace('/', '_'));
+		expect(codeForFileName(code)).not.toContain('/');
+		for (const text of [code.replace('/', '//'), code.replace('/', ''), code.replace('/', '.'), code.replace('-', '/')]) {
+			expect(parseCode(text), text).toMatchObject({ ok: false, kind: 'malformed' });
+		}
 	});
 
 	it('detects every single-character substitution in a sample of codes', () => {
@@ -101,8 +132,10 @@ describe('formatCode / parseCode', () => {
 		const accepted: string[] = [];
 		for (const code of sample) {
 			for (let i = 0; i < code.length; i++) {
-				for (const ch of ALPHABET + '-') {
+				for (const ch of ALPHABET + '-/') {
 					if (ch === code[i]) continue;
+					// the hyphen in the slash's place is the older way of writing the same code, not a typo
+					if (code[i] === '/' && ch === '-') continue;
 					tried++;
 					const typo = code.slice(0, i) + ch + code.slice(i + 1);
 					if (parseCode(typo).ok) accepted.push(`${code} → ${typo}`);
@@ -120,7 +153,7 @@ describe('formatCode / parseCode', () => {
 		let tried = 0;
 		let missed = 0;
 		for (const code of sample) {
-			for (const text of [code, code.replace(/-/g, '')]) {
+			for (const text of [code, code.replace(/[-/]/g, '')]) {
 				for (let i = 0; i + 1 < text.length; i++) {
 					if (text[i] === text[i + 1]) continue;
 					tried++;
@@ -135,14 +168,14 @@ describe('formatCode / parseCode', () => {
 			}
 		}
 		expect(tried).toBeGreaterThan(2000);
-		expect(missed).toBeGreaterThan(0); // the sample holds TRN-00450-H, see below
+		expect(missed).toBeGreaterThan(0); // the sample holds TRN-00450/H, see below
 		expect(missed / tried).toBeLessThan(0.01);
 	});
 
 	it('documents the blind spot with a concrete pair', () => {
 		// ISO/IEC 7064:2003 hybrid systems: "45" ↔ "54" after the running state of TRN-00 goes unseen
-		expect(formatCode('TRN', 450)).toBe('TRN-00450-H');
-		expect(formatCode('TRN', 540)).toBe('TRN-00540-H');
+		expect(formatCode('TRN', 450)).toBe('TRN-00450/H');
+		expect(formatCode('TRN', 540)).toBe('TRN-00540/H');
 		// while a swap of non-consecutive values in the same place is caught
 		expect(checkChar('TRN00460')).not.toBe(checkChar('TRN00640'));
 	});

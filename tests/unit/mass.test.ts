@@ -21,7 +21,8 @@ describe('uncertainty (JCGM 100:2008)', () => {
 	});
 
 	it('net mass: d = 1 µg, s = 0.5 µg → u_net = 0.8165 µg, U = 1.633 µg', () => {
-		// JCGM 100:2008, 5.1.2 (gross and tare independent) and F.2.2.1; DESIGN §3.1 check value
+		// This project's design value (DESIGN §3.1), not a published one, computed with JCGM 100:2008 5.1.2 (gross
+		// and tare independent) and F.2.2.1 (d/√12): u_net = √(2·(s² + d²/12)) = √(2·(0.25 + 0.0833)) = 0.8165 µg
 		const u = netUncertainty({ d: 1, s: 0.5 });
 		expect(u).toBeCloseTo(0.8165, 4);
 		// JCGM 100:2008, 6.2–6.3: U = k·u with k = 2
@@ -42,7 +43,8 @@ describe('uncertainty (JCGM 100:2008)', () => {
 
 describe('minimum weight (USP <41>)', () => {
 	it('d = 1 µg, s = 0.3 µg → 820 µg', () => {
-		// USP <41>: 0.41·d replaces s when larger; m_min = 2000·0.41·1 µg
+		// USP <41>: 0.41·d replaces s when larger; 0.41·1 µg > 0.3 µg, so m_min = 2000 × 0.41 µg = 820 µg
+		// (DESIGN §3.2's check value, derived here)
 		expect(minimumWeight({ d: 1, s: 0.3 })).toBe(820);
 	});
 
@@ -78,7 +80,7 @@ describe('scaleUg', () => {
 
 describe('formatMg', () => {
 	it('formats integer µg as exact mg text', () => {
-		// DESIGN §5: the 2.184 g chamber
+		// DESIGN §5: the 2.184 g return cell
 		expect(formatMg(2184000, 3)).toBe('2184.000 mg');
 		expect(formatMg(5, 3)).toBe('0.005 mg');
 		expect(formatMg(12345, 4)).toBe('12.3450 mg');

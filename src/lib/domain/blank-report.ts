@@ -385,12 +385,12 @@ export function limitText(stats: BlankStatistics, which: 'lod' | 'loq'): string 
 export function templateCsv(): string {
 	const rows = [
 		COLUMNS.join(','),
-		'alanine,L,TRN-00011-?,1,12.4,nmol/g,0.6',
-		'alanine,D,TRN-00011-?,1,9.8,nmol/g,0.5',
-		'alanine,L,TRN-00041-?,1,0.9,nmol/g,',
-		'alanine,D,TRN-00041-?,1,0.7,nmol/g,',
-		'glycine,,TRN-00011-?,1,30.2,nmol/g,1.1',
-		'glycine,,TRN-00041-?,1,2.1,nmol/g,'
+		'alanine,L,TRN-00011/?,1,12.4,nmol/g,0.6',
+		'alanine,D,TRN-00011/?,1,9.8,nmol/g,0.5',
+		'alanine,L,TRN-00041/?,1,0.9,nmol/g,',
+		'alanine,D,TRN-00041/?,1,0.7,nmol/g,',
+		'glycine,,TRN-00011/?,1,30.2,nmol/g,1.1',
+		'glycine,,TRN-00041/?,1,2.1,nmol/g,'
 	];
 	return rows.join('\r\n') + '\r\n';
 }

@@ -47,3 +47,33 @@ export function handlingMark(rules: HandlingRules): string | null {
 	if (air !== null && air <= AIR_MARK_LIMIT_MIN) return `air ≤ ${air} min`;
 	return null;
 }
+
+/** What a label's hazard mark is read from: where the item is kept and what it travels with. */
+export interface HazardSource {
+	/** the item's storage place, e.g. "LN₂ dewar D-2, vapour phase" */
+	storagePlace?: string | null;
+	/** coolant of a transfer the item is on and that has not arrived (prepared or dispatched) */
+	coolant?: string | null;
+}
+
+const CRYOGENIC_STORE = /liquid[\s-]+nitrogen|\bLN2\b|LN₂|\bdewar\b|cryogenic|vapou?r phase|\bcryo\b/i;
+const DRY_ICE_STORE = /dry[\s-]+ice|\bsolid CO2\b|solid CO₂/i;
+
+/**
+ * The hazard a label flags, in Regolog's own short words, or null: the transfer's coolant first
+ * (dry ice, a liquid-nitrogen dry shipper), then the item's storage (cryogenic, dry ice).
+ */
+export function hazardMark(h: HazardSource): string | null {
+	if (h.coolant === 'dry_ice') return 'dry ice';
+	if (h.coolant === 'dry_shipper') return 'LN₂ dry shipper';
+	const place = h.storagePlace ?? '';
+	if (CRYOGENIC_STORE.test(place)) return 'LN₂ cryogenic';
+	if (DRY_ICE_STORE.test(place)) return 'dry ice';
+	return null;
+}
+
+/** The label's mark: a hazard (drawn striped, with "site rules") ahead of the handling words. */
+export function labelMark(handling: string | null, hazard: string | null): { text: string; hazard?: boolean } | null {
+	if (hazard) return { text: handling ? `${hazard} · ${handling}` : hazard, hazard: true };
+	return handling ? { text: handling } : null;
+}

@@ -20,11 +20,12 @@ export function readScan(text: string, origin: string): ScanResult {
 	const t = String(text ?? '').replace(/[\u0000-\u001f\u007f]/g, '').trim();
 	if (t === '') return { ok: false, kind: 'empty', reason: 'Scan a label or type an item code.' };
 	if (URL_LIKE.test(t)) return fromUrl(t, origin);
-	if (/[/\\?#]/.test(t)) {
-		return { ok: false, kind: 'malformed', reason: `"${clip(t)}" is neither an item code nor a Regolog label link.` };
-	}
 	const p = parseCode(t);
 	if (p.ok) return { ok: true, code: p.code };
+	// a code has one slash, before its check character; a path or query is something else
+	if (/[\\?#]|\/.*\//.test(t)) {
+		return { ok: false, kind: 'malformed', reason: `"${clip(t)}" is neither an item code nor a Regolog label link.` };
+	}
 	return { ok: false, kind: p.kind, reason: sentence(p.reason) };
 }
 
@@ -44,7 +45,8 @@ function fromUrl(t: string, origin: string): ScanResult {
 			reason: `This code links to ${url.host || url.protocol}, not to this Regolog (${ours.host}); it is not one of our labels, so nothing was opened.`
 		};
 	}
-	const m = /^\/items\/([^/]+)\/?$/.exec(url.pathname);
+	// /items/TRN-00042%2FG as Regolog prints it; /items/TRN-00042/G when the slash was left unencoded
+	const m = /^\/items\/([^/]+(?:\/[0-9A-Za-z])?)\/?$/.exec(url.pathname);
 	if (!m) return { ok: false, kind: 'not-item', reason: `The link points to ${url.pathname} on Regolog, not to an item.` };
 	let raw: string;
 	try {

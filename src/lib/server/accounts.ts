@@ -4,6 +4,7 @@ import { models, User, Lab, EmailToken, ApiToken } from './models';
 import { appendTrail, actorOf } from './trail';
 import { enqueueMail } from './outbox';
 import { inviteMail, resetMail } from './mail-templates';
+import { facilityName } from './facility';
 import { hashPassword, passwordProblem, verifyPassword } from './auth/password';
 import { newSecret, sha256hex, createApiToken } from './auth/tokens';
 import { lucia } from './auth/lucia';
@@ -95,7 +96,7 @@ export async function inviteUser(actor: SessionUser, input: z.infer<typeof invit
 			{ userId: user.id, purpose: 'invite', tokenHash: sha256hex(secret), expiresAt: new Date(Date.now() + INVITE_HOURS * 3600_000), usedAt: null, createdBy: actor.id },
 			{ transaction: t }
 		);
-		const mail = inviteMail(input.name, ROLE_LABELS[input.role], secret, actor.name);
+		const mail = inviteMail(input.name, ROLE_LABELS[input.role], secret, actor.name, await facilityName(sequelize, t));
 		await enqueueMail(t, { to: input.email, ...mail, kind: 'invite' });
 		await appendTrail(sequelize, t, {
 			actor: actorOf(actor), action: 'user.invited', subjectType: 'user', subjectId: user.id,
@@ -121,7 +122,7 @@ export async function requestReset(email: string): Promise<void> {
 			{ userId: user.id, purpose: 'reset', tokenHash: sha256hex(secret), expiresAt: new Date(Date.now() + RESET_HOURS * 3600_000), usedAt: null, createdBy: null },
 			{ transaction: t }
 		);
-		await enqueueMail(t, { to: user.email, ...resetMail(user.name, secret), kind: 'reset' });
+		await enqueueMail(t, { to: user.email, ...resetMail(user.name, secret, await facilityName(sequelize, t)), kind: 'reset' });
 		await appendTrail(sequelize, t, { actor: { id: user.id, label: user.email }, action: 'user.reset_requested', subjectType: 'user', subjectId: user.id });
 	});
 }

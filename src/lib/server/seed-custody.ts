@@ -27,7 +27,7 @@ async function stock(sq: Sequelize, prefix: string): Promise<string> {
 
 const plan = (what: string) => `${what}. Sub-sampling under nitrogen, solvent extraction and derivatisation, then measurement with replicate procedural blanks carried alongside.`;
 const why = (what: string) => `${what}; the aliquot size is the smallest that gives replicate measurements above the blank-derived limits.`;
-const packing = { container: 'Crimp-sealed PTFE vial in a steel secondary can', seal: 'BW-S-0000', atmosphere: 'dry nitrogen, sealed in glovebox GB-1', temperature: 'below −20 °C', coolant: 'dry_ice' as const, carrier: 'Corvane Courier (invented)', note: '' };
+const packing = { container: 'Crimp-sealed PTFE vial in a steel secondary can', seal: 'BW-S-0000', atmosphere: 'dry nitrogen, sealed in glovebox GB-1', temperature: 'below −20 °C', coolant: 'dry_ice' as const, dryIceNetG: 2500, carrier: 'Corvane Courier (invented)', note: '' };
 
 /**
  * Requests in every state and transfers in every state for both demo labs, made through the same
@@ -54,7 +54,7 @@ export async function seedCustody(sq: Sequelize, log: (s: string) => void = () =
 	};
 	const sign = (u: SessionUser, id: string, meaning: Parameters<typeof signTransfer>[3]['meaning'], note = '') => signTransfer(sq, u, id, { meaning, password: pw, note });
 
-	await ask(fennick, 'TRN', 1_500, 'Amino-acid enantiomer survey of chamber A fines', false);
+	await ask(fennick, 'TRN', 1_500, 'Amino-acid enantiomer survey of cell 1 fines', false);
 	await ask(marrow, 'HLF', 20_000, 'Bulk carbon and nitrogen isotope ratios of matrix');
 	const inReview = await ask(fennick, 'ICE', 120, 'Search for sugar-related compounds in run 12 residue');
 	await startReview(sq, curator, inReview);
@@ -74,7 +74,7 @@ export async function seedCustody(sq: Sequelize, log: (s: string) => void = () =
 	await sign(curator, await ship(dispatched, 'HLF', 3_000, 'CV-20261129-07'), 'dispatched');
 
 	// Received: on loan, usage report due.
-	const fulfilled = await ask(fennick, 'TRN', 500, 'Enantiomeric excess of isovaline and alanine in chamber A fines');
+	const fulfilled = await ask(fennick, 'TRN', 500, 'Enantiomeric excess of isovaline and alanine in cell 1 fines');
 	await grantRequest(sq, curator, fulfilled, { grantedUg: 500, note: 'Handle under nitrogen only.' });
 	const t3 = await ship(fulfilled, 'TRN', 500, 'CV-20261120-02');
 	await sign(curator, t3, 'dispatched');
@@ -88,12 +88,12 @@ export async function seedCustody(sq: Sequelize, log: (s: string) => void = () =
 	await sign(marrow, t4, 'received_damaged', 'Outer can dented; vial and seal intact.');
 	const [a4] = await sq.query<{ code: string }>(`SELECT i.code FROM allocation_items ai JOIN items i ON i.id = ai.item_id WHERE ai.request_id = :r`, { type: QueryTypes.SELECT, replacements: { r: closed } });
 	await submitUsage(sq, marrow, closed, { itemCode: a4.code, consumedUg: 1_400, returnedUg: 600, lostUg: 0, resultsSummary: 'δ18O of three magnetite separates measured in duplicate; residue returned.' });
-	const back = await prepareTransfer(sq, marrow, { itemCodes: [a4.code], ...packing, coolant: 'none', temperature: 'ambient', trackingRef: 'CV-20261115-09' });
+	const back = await prepareTransfer(sq, marrow, { itemCodes: [a4.code], ...packing, coolant: 'none', dryIceNetG: null, temperature: 'ambient', trackingRef: 'CV-20261115-09' });
 	await sign(marrow, back, 'dispatched');
 	await sign(curator, back, 'received_intact');
 
 	// Refused on arrival, and a cancelled transfer.
-	const refused = await ask(marrow, 'TRN', 400, 'Noble-gas release of chamber B grains', true, false);
+	const refused = await ask(marrow, 'TRN', 400, 'Noble-gas release of cell 2 grains', true, false);
 	await grantRequest(sq, curator, refused, { grantedUg: 400 });
 	const t5 = await ship(refused, 'TRN', 400, 'CV-20261125-13');
 	await sign(curator, t5, 'dispatched');

@@ -8,7 +8,7 @@ import { splitItem } from './registry/split';
 export const DEMO_COLLECTIONS = [
 	{
 		prefix: 'TRN', name: 'Lantern return from Tarnwick', kind: 'sample_return',
-		description: 'Regolith returned by the sample-return mission Lantern from the small asteroid Tarnwick, in two sealed chambers.',
+		description: 'Regolith returned by the sample-return mission Lantern from the small asteroid Tarnwick, in two sealed return cells.',
 		atmospheres: ['nitrogen glovebox'], materials: ['stainless steel 316L', 'PTFE', 'fused silica', 'aluminium 6061'], maxAir: 0,
 		reserve: 0.85, tolUg: null, tolFraction: 0.002
 	},
@@ -31,9 +31,9 @@ function inDays(days: number): string {
 }
 
 export const DEMO_BALANCES = [
-	{ name: 'Kestrel UM-1 ultramicro', model: 'ultramicro balance, 0.1 µg', location: 'Nitrogen glovebox A', d: 0.1, s: 0.25, dueDays: 150 },
-	{ name: 'Kestrel MB-2 micro', model: 'microbalance, 1 µg', location: 'Nitrogen glovebox B', d: 1, s: 0.4, dueDays: 220 },
-	{ name: 'Harrow SM-3 semi-micro', model: 'semi-micro balance, 10 µg', location: 'Cleanroom 2', d: 10, s: 8, dueDays: 90 }
+	{ name: 'Tamberlow UM-1 ultramicro', model: 'ultramicro balance, 0.1 µg', location: 'Nitrogen glovebox A', d: 0.1, s: 0.25, dueDays: 150 },
+	{ name: 'Tamberlow MB-2 micro', model: 'microbalance, 1 µg', location: 'Nitrogen glovebox B', d: 1, s: 0.4, dueDays: 220 },
+	{ name: 'Vessant SM-3 semi-micro', model: 'semi-micro balance, 10 µg', location: 'Cleanroom 2', d: 10, s: 8, dueDays: 90 }
 ] as const;
 
 /** A fixed pseudo-random sequence, so the demo trees come out the same on every fresh database. */
@@ -80,23 +80,23 @@ async function placeOnLoan(sq: Sequelize, code: string, labName: string) {
 async function seedTarnwick(sq: Sequelize, who: Who, um: string, mb: string) {
 	const rnd = sequence(4242);
 	const a = await registerSpecimen(sq, who, {
-		collection: 'TRN', massUg: 2_184_000, description: 'Chamber A bulk regolith, dark fine-grained material with mm-sized clasts',
-		container: 'Sealed return chamber A, nitrogen backfilled', storagePlace: 'Nitrogen cabinet N2-1, shelf 1', provenance: 'Lantern capsule, chamber A; opened in glovebox A',
+		collection: 'TRN', massUg: 2_184_000, description: 'Cell 1 bulk regolith, dark fine-grained material with mm-sized clasts',
+		container: 'Sealed return cell 1, nitrogen backfilled', storagePlace: 'Nitrogen cabinet N2-1, shelf 1', provenance: 'Lantern capsule, cell 1; opened in glovebox A',
 		weighing: { balanceId: mb, tareUg: 0 }
 	});
 	const b = await registerSpecimen(sq, who, {
-		collection: 'TRN', massUg: 1_226_000, description: 'Chamber B bulk regolith, coarser grains with bright inclusions',
-		container: 'Sealed return chamber B, nitrogen backfilled', storagePlace: 'Nitrogen cabinet N2-1, shelf 2', provenance: 'Lantern capsule, chamber B; opened in glovebox A',
+		collection: 'TRN', massUg: 1_226_000, description: 'Cell 2 bulk regolith, coarser grains with bright inclusions',
+		container: 'Sealed return cell 2, nitrogen backfilled', storagePlace: 'Nitrogen cabinet N2-1, shelf 2', provenance: 'Lantern capsule, cell 2; opened in glovebox A',
 		weighing: { balanceId: mb, tareUg: 0 }
 	});
-	// chamber A: eight first-level aliquots, then three more levels below the first three of them
+	// cell 1: eight first-level aliquots, then three more levels below the first three of them
 	const level1 = await split(sq, who, a.code, Array.from({ length: 8 }, () => rnd(18_000, 42_000)), mb, 6);
 	const level2: string[] = [];
 	for (const code of level1.slice(0, 3)) level2.push(...(await split(sq, who, code, Array.from({ length: 4 }, () => rnd(2_500, 4_200)), mb, 3)));
 	const level3: string[] = [];
 	for (const code of level2.slice(0, 5)) level3.push(...(await split(sq, who, code, Array.from({ length: 3 }, () => rnd(450, 700)), um, 1)));
 	for (const code of level3.slice(0, 4)) await split(sq, who, code, [rnd(90, 130), rnd(90, 130)], um, 0);
-	// chamber B: six first-level aliquots, two of them split once more
+	// cell 2: six first-level aliquots, two of them split once more
 	const bLevel1 = await split(sq, who, b.code, Array.from({ length: 6 }, () => rnd(12_000, 30_000)), mb, 4);
 	for (const code of bLevel1.slice(0, 2)) await split(sq, who, code, [rnd(3_000, 5_000), rnd(3_000, 5_000), rnd(3_000, 5_000)], mb, 2);
 	// aliquots that were not split further go out on loan

@@ -6,9 +6,9 @@ import { ApiProblem } from '../api';
 import { COLUMNS } from '../../domain/blank-report';
 import { createReport } from './service';
 
-export const DEMO_REPORT_TITLE = 'Hot-water extract of a Chamber A aliquot, chiral GC-MS run 1';
-const DEMO_WITNESS_DESCRIPTION = 'Witness coupon: baked aluminium foil left open beside the Chamber A aliquot in the nitrogen glovebox during sub-sampling';
-const DEMO_BLANK_DESCRIPTION = 'Procedural blank: baked fused-silica vial carried through hot-water extraction and acid hydrolysis alongside the Chamber A aliquot';
+export const DEMO_REPORT_TITLE = 'Hot-water extract of a cell 1 aliquot, chiral GC-MS run 1';
+const DEMO_WITNESS_DESCRIPTION = 'Witness coupon: baked aluminium foil left open beside the cell 1 aliquot in the nitrogen glovebox during sub-sampling';
+const DEMO_BLANK_DESCRIPTION = 'Procedural blank: baked fused-silica vial carried through hot-water extraction and acid hydrolysis alongside the cell 1 aliquot';
 
 type DemoRows = [analyte: string, enantiomer: 'L' | 'D' | '', values: number[], u?: number][];
 
@@ -94,7 +94,7 @@ export async function seedBlankControlDemo(sq: Sequelize, log: (s: string) => vo
 	const witness = await demoBlank(sq, lab.id, DEMO_WITNESS_DESCRIPTION, 'Aluminium foil coupon in a baked glass dish', 'demo witness coupon');
 	const who: Who = { id: user.id, label: user.email, role: 'lab_member', labId: lab.id };
 	try {
-		await createReport(sq, who, { title: DEMO_REPORT_TITLE, fileName: 'fennick-chamber-a-run1.csv', contentType: 'text/csv', bytes: Buffer.from(demoCsv(sample.code, blank.code, witness.code)) });
+		await createReport(sq, who, { title: DEMO_REPORT_TITLE, fileName: 'fennick-cell-1-run1.csv', contentType: 'text/csv', bytes: Buffer.from(demoCsv(sample.code, blank.code, witness.code)) });
 		log(`demo blank-control report on ${sample.code} present`);
 	} catch (e) {
 		if (e instanceof ApiProblem && e.code === 'storage_unavailable') log('demo blank-control report skipped: the document store is not reachable');

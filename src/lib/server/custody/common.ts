@@ -4,6 +4,8 @@ import { ApiProblem, pathId } from '../api';
 import type { SessionUser } from '../auth/types';
 import { enqueueMail } from '../outbox';
 import { config } from '../config';
+import { noticeText } from '../mail-templates';
+import { facilityName } from '../facility';
 
 export const REQUEST_STATES = ['draft', 'submitted', 'in_review', 'granted', 'declined', 'fulfilled', 'closed', 'withdrawn'] as const;
 export type RequestState = (typeof REQUEST_STATES)[number];
@@ -50,11 +52,13 @@ export async function recipients(sq: Sequelize, t: Transaction, opts: { roles: s
 /** Queues one notification per recipient in the caller's transaction, with a link into Regolog. */
 export async function notify(sq: Sequelize, t: Transaction, to: string[], kind: string, subject: string, lines: string[], path: string) {
 	const href = `${config.origin}${path}`;
+	if (!to.length) return;
+	const text = noticeText(lines, href, await facilityName(sq, t));
 	for (const address of to) {
 		await enqueueMail(t, {
 			to: address,
 			subject: `[Regolog] ${subject}`,
-			text: [...lines, '', `Open in Regolog: ${href}`, '', '— Regolog, Brightwater Curation Facility'].join('\n'),
+			text,
 			kind
 		});
 	}

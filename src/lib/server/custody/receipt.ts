@@ -2,6 +2,7 @@ import PDFDocument from 'pdfkit';
 import { createRequire } from 'node:module';
 import { dirname, join } from 'node:path';
 import { formatMg } from '../../domain/mass';
+import { coolantCaution } from '../../cautions';
 import type { getTransfer } from './transfers';
 
 type TransferData = Awaited<ReturnType<typeof getTransfer>>;
@@ -12,7 +13,32 @@ function fontFile(weight: 400 | 700): string {
 	return join(dir, 'files', `atkinson-hyperlegible-latin-${weight}-normal.woff`);
 }
 
-/** The custody receipt of one transfer: manifest, every signature's manifestation and the manifest hash. */
+/** Subscript digits (CO₂) as plain ones: the embedded font has no subscript glyphs. */
+const plainDigits = (s: string) => s.replace(/[\u2080-\u2089]/g, (c) => String.fromCharCode(c.charCodeAt(0) - 0x2080 + 0x30));
+
+/** A caution in a box with an ochre bar at its left, as on the screen, across the text width. */
+function cautionBox(doc: PDFKit.PDFDocument, title: string[], lines: string[]) {
+	const left = doc.page.margins.left;
+	const width = doc.page.width - left - doc.page.margins.right;
+	const pad = 8;
+	const textW = width - 2 * pad - 4;
+	doc.moveDown(0.6);
+	doc.font('bold').fontSize(10);
+	const titleH = doc.heightOfString(title.join(' '), { width: textW });
+	doc.font('body').fontSize(9);
+	const bodyH = lines.reduce((h, l) => h + doc.heightOfString(l, { width: textW }) + 2, 0);
+	const h = titleH + bodyH + 2 * pad + 2;
+	if (doc.y + h > doc.page.height - doc.page.margins.bottom) doc.addPage();
+	const top = doc.y;
+	doc.save().rect(left, top, width, h).fill('#fbf1dc').rect(left, top, 4, h).fill('#b7791f').restore();
+	doc.font('bold').fontSize(10).fillColor('#1c1b18').text(title.join(' '), left + 4 + pad, top + pad, { width: textW });
+	doc.font('body').fontSize(9);
+	for (const l of lines) doc.text(l, left + 4 + pad, doc.y + 2, { width: textW });
+	doc.x = left;
+	doc.y = top + h;
+}
+
+/** The custody receipt of one transfer: manifest, dry-ice mass and the coolant's caution, every signature's manifestation and the manifest hash. */
 export function receiptPdf(d: TransferData): Promise<Buffer> {
 	return new Promise((resolve, reject) => {
 		const doc = new PDFDocument({ size: 'A4', margin: 50, info: { Title: `Custody receipt ${d.transfer.number}`, Producer: 'Regolog' } });
@@ -23,11 +49,13 @@ export function receiptPdf(d: TransferData): Promise<Buffer> {
 		doc.registerFont('body', fontFile(400));
 		doc.registerFont('bold', fontFile(700));
 		const x = d.transfer;
+		// the facility's side of the transfer carries the `facility.name` setting
+		const facility = (x.direction === 'outbound' ? x.from.name : x.to.name) ?? '';
 		doc.font('bold').fontSize(18).fillColor('#0f2e2c').text(`Custody receipt ${x.number}`);
-		doc.font('body').fontSize(10).fillColor('#3f3c34').text(`Regolog · Brightwater Curation Facility · printed ${new Date().toISOString().replace('T', ' ').slice(0, 19)} UTC`);
+		doc.font('body').fontSize(10).fillColor('#3f3c34').text(`Regolog · ${facility} · printed ${new Date().toISOString().replace('T', ' ').slice(0, 19)} UTC`);
 		doc.moveDown();
 		const row = (k: string, v: string) => {
-			doc.font('bold').fontSize(10).fillColor('#1c1b18').text(`${k}: `, { continued: true }).font('body').text(v || '—');
+			doc.font('bold').fontSize(10).fillColor('#1c1b18').text(`${k}: `, { continued: true }).font('body').text(plainDigits(v) || '—');
 		};
 		row('Direction', x.direction === 'outbound' ? 'Facility to lab' : 'Lab to facility (return)');
 		row('From', x.from.name ?? '');
@@ -37,8 +65,11 @@ export function receiptPdf(d: TransferData): Promise<Buffer> {
 		row('Container and seal', `${x.container}${x.seal ? ` · seal ${x.seal}` : ''}`);
 		row('Packaging atmosphere and temperature', [x.atmosphere, x.temperature].filter(Boolean).join(' · '));
 		row('Coolant', x.coolantLabel);
+		if (x.coolant === 'dry_ice') row('Dry ice, net mass', x.dryIceText ?? 'not recorded (prepared before the mass was recorded)');
 		row('Carrier and tracking', [x.carrier, x.trackingRef].filter(Boolean).join(' · '));
 		row('Expected arrival', x.expectedArrival ?? '');
+		const caution = coolantCaution(x.coolant);
+		if (caution) cautionBox(doc, [caution.title], [...caution.lines, caution.defer]);
 		doc.moveDown();
 		doc.font('bold').fontSize(13).fillColor('#0f2e2c').text('Items');
 		doc.font('body').fontSize(10).fillColor('#1c1b18');

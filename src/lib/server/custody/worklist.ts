@@ -1,6 +1,7 @@
 import { QueryTypes, type Sequelize } from 'sequelize';
 import type { SessionUser } from '../auth/types';
 import { requestNumber, transferNumber } from './common';
+import { itemPath } from '../../domain/codes';
 
 export interface WorkItem {
 	href: string;
@@ -37,7 +38,7 @@ export async function worklist(sq: Sequelize, user: SessionUser): Promise<WorkGr
 			{ key: 'sign', title: 'Waiting for your signature', items: toSign.map((x) => ({ href: `/transfers/${x.id}`, title: transferNumber(x.number), detail: 'sign receipt or dispatch', since: iso(x.at) })) },
 			{ key: 'usage', title: 'Usage reports to file', items: reports.map((r) => ({ href: `/requests/${r.id}`, title: requestNumber(r.number), detail: `${r.prefix} · due ${iso(r.due)?.slice(0, 10) ?? '—'}${r.due && new Date(r.due) < new Date() ? ' · OVERDUE' : ''}`, since: iso(r.at) })) },
 			{ key: 'requests', title: 'Your open requests', items: mine.map((r) => ({ href: `/requests/${r.id}`, title: requestNumber(r.number), detail: `${r.prefix} · ${r.state.replace('_', ' ')}`, since: iso(r.at) })) },
-			{ key: 'loan', title: 'Material on loan to your lab', items: onLoan.map((i) => ({ href: `/items/${i.code}`, title: i.code, detail: `${(i.mass_ug / 1000).toFixed(3)} mg`, since: iso(i.at) })) }
+			{ key: 'loan', title: 'Material on loan to your lab', items: onLoan.map((i) => ({ href: `/items/${itemPath(i.code)}`, title: i.code, detail: `${(i.mass_ug / 1000).toFixed(3)} mg`, since: iso(i.at) })) }
 		];
 	}
 	const review = await q<Req>(

@@ -2,6 +2,7 @@ import { QueryTypes, type Sequelize } from 'sequelize';
 import { ApiProblem, pathId } from '../api';
 import { canSeeLab, type Viewer } from '../auth/scope';
 import { findItem } from '../registry/common';
+import { itemPath } from '../../domain/codes';
 
 /** What a document can be attached to (the documents.subject_type check lists the same). */
 export const SUBJECT_TYPES = ['item', 'blank', 'handling_session', 'transfer', 'request', 'usage_report', 'blank_control_report'] as const;
@@ -75,7 +76,7 @@ interface ItemLite {
 }
 
 function itemResolver(type: 'item' | 'blank'): SubjectResolver {
-	const toSubject = (r: ItemLite): Subject => ({ type, id: r.id, labId: r.holder_lab_id, label: r.code, href: `/items/${r.code}` });
+	const toSubject = (r: ItemLite): Subject => ({ type, id: r.id, labId: r.holder_lab_id, label: r.code, href: `/items/${itemPath(r.code)}` });
 	return {
 		async find(sq, who, ref) {
 			const row = await findItem(sq, who, ref);

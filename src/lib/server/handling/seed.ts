@@ -62,11 +62,11 @@ export async function seedHandling(sq: Sequelize, log: (s: string) => void = () 
 		});
 		coupons.push(b.code);
 	}
-	const chamberA = await first('TRN', 'specimen');
-	const aliquotA1 = await codeOf(sq, `SELECT k.code FROM items k JOIN items p ON p.id = k.parent_id WHERE p.code = :c ORDER BY k.serial LIMIT 1`, { c: chamberA });
+	const cell1 = await first('TRN', 'specimen');
+	const aliquotA1 = await codeOf(sq, `SELECT k.code FROM items k JOIN items p ON p.id = k.parent_id WHERE p.code = :c ORDER BY k.serial LIMIT 1`, { c: cell1 });
 	const opening = await recordSession(sq, who, {
-		items: [chamberA], atmosphere: 'nitrogen_glovebox', start: ago(300), end: ago(180), temperatureC: 21.4, humidityPct: 0.3,
-		contacts: ['PTFE-tipped tweezers', 'Fused silica dish'], blanks: [coupons[0]], purpose: 'Chamber A opening and first aliquots'
+		items: [cell1], atmosphere: 'nitrogen_glovebox', start: ago(300), end: ago(180), temperatureC: 21.4, humidityPct: 0.3,
+		contacts: ['PTFE-tipped tweezers', 'Fused silica dish'], blanks: [coupons[0]], purpose: 'Cell 1 opening and first aliquots'
 	});
 	await recordSession(sq, who, {
 		items: [aliquotA1], atmosphere: 'nitrogen_glovebox', start: ago(150), end: ago(120), temperatureC: 21.1, humidityPct: 0.2,
@@ -82,7 +82,7 @@ export async function seedHandling(sq: Sequelize, log: (s: string) => void = () 
 	});
 	const [split] = await sq.query<{ id: string }>(
 		`SELECT sp.id FROM splits sp JOIN items p ON p.id = sp.parent_id WHERE p.code = :c ORDER BY sp.at LIMIT 1`,
-		{ type: QueryTypes.SELECT, replacements: { c: chamberA } }
+		{ type: QueryTypes.SELECT, replacements: { c: cell1 } }
 	);
 	if (split) await attachSession(sq, who, split.id, { sessionId: opening.id });
 
@@ -94,7 +94,7 @@ export async function seedHandling(sq: Sequelize, log: (s: string) => void = () 
 	// ICE: run 12 in vacuum and argon with the procedural blank; run 7 left in ambient air past the limit
 	const iceBlank = await first('ICE', 'blank');
 	const run12 = await first('ICE', 'specimen', 2);
-	await recordSession(sq, who, { items: [run12], atmosphere: 'vacuum', start: ago(600), end: ago(480), blanks: [iceBlank], contacts: ['PTFE window holder'], purpose: 'Residue recovery from the chamber' });
+	await recordSession(sq, who, { items: [run12], atmosphere: 'vacuum', start: ago(600), end: ago(480), blanks: [iceBlank], contacts: ['PTFE window holder'], purpose: 'Residue recovery from the vacuum chamber' });
 	await recordSession(sq, who, { items: [run12], atmosphere: 'argon_glovebox', start: ago(470), end: ago(440), temperatureC: 19.8, humidityPct: 0.5, blanks: [iceBlank], purpose: 'Pooling windows for the split' });
 	await recordSession(sq, who, {
 		items: [await first('ICE', 'specimen', 0)], atmosphere: 'ambient_air', start: ago(260), end: ago(235), temperatureC: 22.9, humidityPct: 41,

@@ -1,6 +1,6 @@
 /**
  * What goes on an item's label, read from the registry's tables (migration 0010: items,
- * collections, weighings, balances; labs; settings). Lab members see only items their lab holds;
+ * collections, weighings, balances; labs; settings; transfers for the coolant an item travels with). Lab members see only items their lab holds;
  * anything out of sight is reported as missing, exactly like an unknown code.
  */
 import { QueryTypes } from 'sequelize';
@@ -8,7 +8,8 @@ import { db } from '../db';
 import { labCondition } from '../auth/scope';
 import type { SessionUser } from '../auth/types';
 import { expanded, decimalsForReadability } from '../../domain/mass';
-import { handlingMark } from '../../domain/labels';
+import { handlingMark, hazardMark, labelMark } from '../../domain/labels';
+import { facilityName } from '../facility';
 import type { LabelData } from './render';
 
 /** The most labels one request may print (about 34 A4 sheets). */
@@ -25,13 +26,9 @@ interface LabelRow {
 	max_air_exposure_min: number | null;
 	lab_name: string | null;
 	readability_ug: string | null;
-}
-
-const FACILITY_FALLBACK = 'the facility';
-
-async function facilityName(): Promise<string> {
-	const [row] = await db().query<{ value: unknown }>(`SELECT value FROM settings WHERE key = 'facility.name'`, { type: QueryTypes.SELECT });
-	return typeof row?.value === 'string' ? row.value : FACILITY_FALLBACK;
+	storage_place: string | null;
+	/** coolant of a transfer the item is on that has not arrived yet */
+	coolant: string | null;
 }
 
 export function labelFromRow(r: LabelRow, facility: string): LabelData {
@@ -46,7 +43,7 @@ export function labelFromRow(r: LabelRow, facility: string): LabelData {
 		decimals: readability && readability > 0 ? decimalsForReadability(readability) : 3,
 		date: r.created_at,
 		holder: r.lab_name ?? facility,
-		mark: mark ? { text: mark } : null
+		mark: labelMark(mark, hazardMark({ storagePlace: r.storage_place, coolant: r.coolant }))
 	};
 }
 
@@ -61,7 +58,9 @@ export async function findLabels(user: SessionUser, codes: readonly string[]): P
 	const scope = labCondition(user, 'i.holder_lab_id', replacements);
 	const rows = await db().query<LabelRow>(
 		`SELECT i.code, i.mass_ug, i.mass_u_ug, i.created_at, c.prefix, c.name AS collection_name,
-		        c.allowed_atmospheres, c.max_air_exposure_min, l.name AS lab_name,
+		        c.allowed_atmospheres, c.max_air_exposure_min, l.name AS lab_name, i.storage_place,
+		        (SELECT x.coolant FROM transfer_items ti JOIN transfers x ON x.id = ti.transfer_id
+		          WHERE ti.item_id = i.id AND x.state IN ('prepared', 'dispatched') ORDER BY x.created_at DESC LIMIT 1) AS coolant,
 		        (SELECT b.readability_ug::text FROM weighings w JOIN balances b ON b.id = w.balance_id
 		          WHERE w.item_id = i.id ORDER BY w.at DESC LIMIT 1) AS readability_ug
 		   FROM items i

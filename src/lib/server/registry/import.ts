@@ -27,8 +27,8 @@ export const MAX_IMPORT_BYTES = 5_000_000;
 export function importTemplate(): string {
 	return stringify(
 		[
-			['HLF', '1520.250', 'Fragment F7, fusion crust on one face', 'PTFE jar', 'Cleanroom 2, cabinet C-4', 'Hollins Ford strewn field, find 7', 'Harrow SM-3 semi-micro', '0', ''],
-			['ICE', '0.152', 'Run 14 residue on MgF2 window W-14', 'Window holder', 'Freezer −20 °C, rack V', 'Vacuum chamber VC-2', 'Kestrel UM-1 ultramicro', '', 'residue mass is inherently small']
+			['HLF', '1520.250', 'Fragment F7, fusion crust on one face', 'PTFE jar', 'Cleanroom 2, cabinet C-4', 'Hollins Ford strewn field, find 7', 'Vessant SM-3 semi-micro', '0', ''],
+			['ICE', '0.152', 'Run 14 residue on MgF2 window W-14', 'Window holder', 'Freezer −20 °C, rack V', 'Vacuum chamber VC-2', 'Tamberlow UM-1 ultramicro', '', 'residue mass is inherently small']
 		],
 		{ header: true, columns: IMPORT_COLUMNS.map((c) => c.name) }
 	);

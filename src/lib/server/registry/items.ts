@@ -173,7 +173,7 @@ export async function listItems(sq: Sequelize, who: Who, q: ListQuery) {
 	if (q.holder === 'facility') where.push('i.holder_lab_id IS NULL');
 	else if (q.holder) (where.push('i.holder_lab_id = :holder'), (r.holder = q.holder.toLowerCase()));
 	if (q.q) {
-		if (/^[A-Za-z]+[-\u2010-\u2015\u2212]\d+[-\u2010-\u2015\u2212][0-9A-Za-z]$/.test(q.q)) {
+		if (/^[A-Za-z]+[-\u2010-\u2015\u2212]\d+[-\u2010-\u2015\u2212/][0-9A-Za-z]$/.test(q.q)) {
 			const parsed = parseCode(q.q);
 			if (!parsed.ok) throw new ApiProblem(400, parsed.kind === 'check' ? 'wrong_check_character' : 'invalid_code', `Item code "${q.q}": ${parsed.reason}.`, { q: parsed.reason });
 			where.push('i.code = :code');

@@ -8,7 +8,7 @@ import { DOCUMENT_KINDS, type DocumentKind } from '$lib/server/documents/types';
 import { listReports } from '$lib/server/blank-reports/service';
 import type { RequestHandler } from './$types';
 
-/** The documents of one subject (?subject=item&ref=TRN-00011-K), and for items and blanks the blank-control reports that name them. */
+/** The documents of one subject (?subject=item&ref=TRN-00011/K), and for items and blanks the blank-control reports that name them. */
 export const GET: RequestHandler = endpoint(async ({ url, locals }) => {
 	const sq = models();
 	const who = whoFrom(locals.user!);

@@ -6,6 +6,7 @@ import { listBalances } from '$lib/server/registry/balances';
 import { whoFrom } from '$lib/server/registry/common';
 import { registerInput, registerSpecimen } from '$lib/server/registry/items';
 import type { Actions, PageServerLoad } from './$types';
+import { itemPath } from '$lib/domain/codes';
 
 export const load: PageServerLoad = async () => {
 	models();
@@ -39,6 +40,6 @@ export const actions: Actions = {
 			if (e instanceof ApiProblem) return fail(e.status, { values, message: e.message, fields: e.fields ?? {} });
 			throw e;
 		}
-		redirect(303, `/items/${code}`);
+		redirect(303, `/items/${itemPath(code)}`);
 	}
 };

@@ -40,7 +40,7 @@ export const actions: Actions = {
 				...(lab ? {} : { requestId: url.searchParams.get('request') ?? '' }),
 				...(codes.length ? { itemCodes: codes } : lab ? { itemCodes: [] } : {}),
 				container: values.container ?? '', seal: values.seal ?? '', atmosphere: values.atmosphere ?? '', temperature: values.temperature ?? '',
-				coolant: values.coolant ?? 'none', carrier: values.carrier ?? '', trackingRef: values.trackingRef ?? '',
+				coolant: values.coolant ?? 'none', ...(values.dryIceKg?.trim() ? { dryIceKg: values.dryIceKg } : {}), carrier: values.carrier ?? '', trackingRef: values.trackingRef ?? '',
 				...(values.expectedArrival ? { expectedArrival: values.expectedArrival } : {}), note: values.note ?? ''
 			},
 			prepareInput

@@ -3,6 +3,7 @@ import { z } from 'zod';
 import { QueryTypes } from 'sequelize';
 import { endpoint, readQuery } from '$lib/server/api';
 import { models } from '$lib/server/models';
+import { legacyCode, parseCode } from '$lib/domain/codes';
 import type { RequestHandler } from './$types';
 
 const query = z.strictObject({
@@ -18,11 +19,15 @@ export const GET: RequestHandler = endpoint(async ({ url }) => {
 	const q = readQuery(url, query);
 	const where: string[] = ['seq > :after'];
 	if (q.subjectType) where.push('subject_type = :subjectType');
-	if (q.subjectId) where.push('subject_id = :subjectId');
+	// an item code names the same subject in both its forms: events written before migration 0090
+	// keep the code with a hyphen before its check character
+	const code = q.subjectId ? parseCode(q.subjectId) : null;
+	const subjectIds = code?.ok ? [code.code, legacyCode(code.code)] : q.subjectId ? [q.subjectId] : [];
+	if (q.subjectId) where.push('subject_id IN (:subjectIds)');
 	if (q.action) where.push(`action LIKE :action || '%'`);
 	const rows = await models().query<{ seq: number; at: Date; actor_label: string; action: string; subject_type: string; subject_id: string; before: unknown; after: unknown; hash: string }>(
 		`SELECT seq, at, actor_label, action, subject_type, subject_id, before, after, hash FROM trail_events WHERE ${where.join(' AND ')} ORDER BY seq LIMIT :limit`,
-		{ type: QueryTypes.SELECT, replacements: { ...q, after: q.after ?? 0 } }
+		{ type: QueryTypes.SELECT, replacements: { ...q, subjectIds, after: q.after ?? 0 } }
 	);
 	return json({
 		events: rows.map((r) => ({ seq: Number(r.seq), at: new Date(r.at).toISOString(), actor: r.actor_label, action: r.action, subject: { type: r.subject_type, id: r.subject_id }, before: r.before, after: r.after, hash: r.hash })),
