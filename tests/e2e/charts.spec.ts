@@ -110,7 +110,7 @@ test('the blank-control report draws its blanks, limits and ee with their values
 	// the table behind the chart has a row for each dot drawn
 	const dots = await ee.locator('svg circle').count();
 	await ee.getByText("The chart's values as a table").click();
-	await expect(ee.getByTestId('ee-table').locator('tbody tr')).toHaveCount(dots);
+	await expect(ee.getByTestId('ee-chart-table').locator('tbody tr')).toHaveCount(dots);
 	await expect(ee.getByRole('img')).toHaveAccessibleDescription(/enantiomeric excess/);
 	await photograph(ee, info, 'ee');
 
