@@ -3,6 +3,7 @@ import { building } from '$app/environment';
 import { startOutboxSender } from '$lib/server/outbox';
 import { remindOverdueUsage } from '$lib/server/custody/usage';
 import { startDocumentCleanup } from '$lib/server/documents/cleanup';
+import { startCheckpoints } from '$lib/server/trail/checkpoints';
 import { randomUUID } from 'node:crypto';
 import { lucia } from '$lib/server/auth/lucia';
 import { decide } from '$lib/server/auth/access';
@@ -174,5 +175,7 @@ export const init: ServerInit = async () => {
 		setTimeout(remind, 10_000).unref();
 		// objects left in the bucket without a record (a failed save) are removed after a grace period
 		startDocumentCleanup(models);
+		// signed checkpoints of the trail's head: at start-up, every 1,000 events, at least hourly
+		startCheckpoints(models);
 	}
 };

@@ -3,6 +3,8 @@ import { readdirSync } from 'node:fs';
 import { join, resolve } from 'node:path';
 import { pathToFileURL } from 'node:url';
 import type { Sequelize, QueryInterface } from 'sequelize';
+import { config } from './config';
+import { ownerConnection } from './db';
 
 export interface MigrationContext {
 	queryInterface: QueryInterface;
@@ -46,7 +48,55 @@ export function migrator(sequelize: Sequelize, dir = resolve(process.cwd(), 'mig
 	});
 }
 
+/**
+ * Tables the app may only read and append to (INSERT, SELECT). trail_events is not even that: the
+ * app appends to it only through trail_append() (migration 0080), which runs with its owner's
+ * rights and computes the link and the hash itself.
+ */
+export const APPEND_ONLY_TABLES = ['trail_keys', 'trail_checkpoints'];
+export const APPEND_THROUGH_FUNCTION = ['trail_events'];
+
+const ident = (s: string) => '"' + s.replace(/"/g, '""') + '"';
+
+/**
+ * The app role's rights, granted afresh after every batch of migrations (idempotent), so a table
+ * any migration creates is reachable by the app without that migration saying so, and the trail's
+ * tables never are writable: the rule is in DEVELOPERS.md ("Database roles"). Rights on tables:
+ * SELECT, INSERT, UPDATE, DELETE (never TRUNCATE, REFERENCES or TRIGGER); on sequences USAGE,
+ * SELECT, UPDATE; functions keep PostgreSQL's default EXECUTE for everybody. The default
+ * privileges make a table the owner creates outside the migrator (a test's own table) reachable
+ * too; the append-only tables are still narrowed here.
+ */
+export async function grantAppPrivileges(owner: Sequelize, app = config.db.user): Promise<void> {
+	const a = ident(app);
+	const [existing] = (await owner.query(`SELECT tablename FROM pg_tables WHERE schemaname = 'public'`)) as [{ tablename: string }[], unknown];
+	const have = new Set(existing.map((r) => r.tablename));
+	const narrow = [...APPEND_ONLY_TABLES, ...APPEND_THROUGH_FUNCTION].filter((t) => have.has(t));
+	await owner.query(`
+		GRANT USAGE ON SCHEMA public TO ${a};
+		REVOKE ALL ON ALL TABLES IN SCHEMA public FROM ${a};
+		GRANT SELECT, INSERT, UPDATE, DELETE ON ALL TABLES IN SCHEMA public TO ${a};
+		GRANT USAGE, SELECT, UPDATE ON ALL SEQUENCES IN SCHEMA public TO ${a};
+		ALTER DEFAULT PRIVILEGES IN SCHEMA public GRANT SELECT, INSERT, UPDATE, DELETE ON TABLES TO ${a};
+		ALTER DEFAULT PRIVILEGES IN SCHEMA public GRANT USAGE, SELECT, UPDATE ON SEQUENCES TO ${a};
+		${narrow.map((t) => `REVOKE ALL ON ${ident(t)} FROM ${a}; GRANT SELECT${APPEND_ONLY_TABLES.includes(t) ? ', INSERT' : ''} ON ${ident(t)} TO ${a};`).join('\n\t\t')}
+	`);
+}
+
+/**
+ * Runs the pending migrations as the owner role and then grants the app role its rights. Given a
+ * connection as the app role (as the scripts and tests hold), it opens one as the owner to the same
+ * database for the run.
+ */
 export async function migrateUp(sequelize: Sequelize): Promise<string[]> {
-	const done = await migrator(sequelize).up();
-	return done.map((m) => m.name);
+	const asOwner = sequelize.config.username === config.db.owner;
+	const owner = asOwner ? sequelize : ownerConnection(sequelize);
+	const app = asOwner ? config.db.user : sequelize.config.username;
+	try {
+		const done = await migrator(owner).up();
+		await grantAppPrivileges(owner, app);
+		return done.map((m) => m.name);
+	} finally {
+		if (!asOwner) await owner.close();
+	}
 }
