@@ -41,7 +41,7 @@ export async function* bundleLines(sq: Sequelize, range: BundleRange): AsyncGene
 			`SELECT CASE WHEN body IS NOT NULL THEN '{"seq":' || seq || ',"prev":"' || prev_hash || '","hash":"' || hash || '","event":' || body || '}' END AS line,
 			        seq::text, prev_hash, hash,
 			        CASE WHEN body IS NULL THEN json_build_array(to_char(at AT TIME ZONE 'UTC', 'YYYY-MM-DD"T"HH24:MI:SS.MS"Z"'), actor_id, actor_label, action, subject_type, subject_id, before, after)::text END AS legacy
-			 FROM trail_events WHERE seq BETWEEN :lo AND :hi ORDER BY seq`,
+			 FROM trail_events WHERE seq BETWEEN :lo AND :hi ORDER BY trail_events.seq`,
 			{ type: QueryTypes.SELECT, replacements: { lo, hi } }
 		);
 		let out = '';

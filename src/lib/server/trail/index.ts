@@ -7,3 +7,4 @@ export * from './checkpoints';
 export * from './keys';
 export * from './export';
 export { canonicalParsed, canonicalRawRow, type RawRow } from '../../domain/trail-verify';
+export * from './bundle-file';
