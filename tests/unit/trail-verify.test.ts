@@ -128,7 +128,7 @@ function chain(n: number) {
 	let prev = GENESIS_HASH;
 	for (let seq = 1; seq <= n; seq++) {
 		const body = canonicalParsed({ action: 'item.weighed', actor: { id: null, label: 'curator@brightwater.example' }, after: { massUg: 1000 + seq, note: 'Fach “3” – ü' }, at: '2031-02-01T10:00:00.000Z', before: null, seq, subject: { id: `TRN-${seq}`, type: 'item' } });
-		const hash = bytesToHex(nodeTrailCrypto.sha256([enc.encode(prev + body)])[0] as Uint8Array);
+		const hash = bytesToHex((nodeTrailCrypto.sha256([enc.encode(prev + body)]) as Uint8Array[])[0]);
 		out.push({ seq, prev, hash, body });
 		prev = hash;
 	}
@@ -220,7 +220,7 @@ describe('bundles', () => {
 			const e = rewritten[s - 1];
 			e.body = e.body.replace(`"massUg":${1000 + s}`, `"massUg":${s}`);
 			e.prev = prev;
-			e.hash = bytesToHex(nodeTrailCrypto.sha256([enc.encode(prev + e.body)])[0] as Uint8Array);
+			e.hash = bytesToHex((nodeTrailCrypto.sha256([enc.encode(prev + e.body)]) as Uint8Array[])[0]);
 			prev = e.hash;
 		}
 		const r = await verifyBundleBytes(bytes(bundle(rewritten, cps)), nodeTrailCrypto);
