@@ -302,7 +302,10 @@ export class BundleVerifier {
 	private checkpointsReady = false;
 	private expect = 0;
 	private prev: string | null = null;
-	private prevBytes = new Uint8Array(64);
+	/** the previous event's hash: 64 bytes of prevLine from prevAt */
+	private prevLine: Uint8Array = new Uint8Array(64);
+	private prevAt = 0;
+	private pending = 0;
 	private lastGood = 0;
 	private matched = 0;
 	private chainBreak: Break | null = null;
@@ -324,22 +327,33 @@ export class BundleVerifier {
 	async push(chunk: Uint8Array): Promise<void> {
 		this.bytesRead += chunk.length;
 		if (this.chainBreak) return;
-		let data = chunk;
-		if (this.rest) {
-			data = new Uint8Array(this.rest.length + chunk.length);
-			data.set(this.rest);
-			data.set(chunk, this.rest.length);
-			this.rest = null;
-		}
 		let from = 0;
-		for (;;) {
-			const nl = data.indexOf(10, from);
-			if (nl < 0) break;
-			await this.line(data.subarray(from, nl));
+		if (this.rest) {
+			// the line begun in the chunk before ends in this one: only that line is joined
+			const nl = chunk.indexOf(10);
+			if (nl < 0) {
+				const joined = new Uint8Array(this.rest.length + chunk.length);
+				joined.set(this.rest);
+				joined.set(chunk, this.rest.length);
+				this.rest = joined;
+				return;
+			}
+			const line = new Uint8Array(this.rest.length + nl);
+			line.set(this.rest);
+			line.set(chunk.subarray(0, nl), this.rest.length);
+			this.rest = null;
+			await this.line(line);
 			if (this.chainBreak) return;
 			from = nl + 1;
 		}
-		if (from < data.length) this.rest = data.slice(from);
+		for (;;) {
+			const nl = chunk.indexOf(10, from);
+			if (nl < 0) break;
+			await this.line(chunk.subarray(from, nl));
+			if (this.chainBreak) return;
+			from = nl + 1;
+		}
+		if (from < chunk.length) this.rest = chunk.slice(from);
 	}
 
 	private fail(at: number, reason: string) {
@@ -403,31 +417,26 @@ export class BundleVerifier {
 			this.lastGood = anchor.seq;
 			this.matched++;
 		}
-		this.prevBytes = utf8.encode(this.prev!);
+		this.prevLine = utf8.encode(this.prev!);
+		this.prevAt = 0;
 	}
 
 	private async eventLine(line: Uint8Array): Promise<void> {
 		if (!this.checkpointsReady) await this.readyCheckpoints();
 		if (this.chainBreak) return;
-		const at = this.expect + this.batch.length;
-		// {"seq":N,"prev":"<64>","hash":"<64>","event":<body>}
+		// {"seq":N,"prev":"<64>","hash":"<64>","event":<body>}, checked byte by byte
 		let i = P_SEQ.length;
 		let seq = 0;
-		const digits = i;
 		while (i < line.length && line[i] >= 48 && line[i] <= 57) seq = seq * 10 + (line[i++] - 48);
-		const bad = () => this.fail(at, `event ${at}: line ${this.lineNo} is not an event line of the bundle format`);
-		if (i === digits || !startsAt(line, i, P_PREV)) return bad();
 		const prevAt = i + P_PREV.length;
-		if (!startsAt(line, prevAt + 64, P_HASH)) return bad();
 		const hashAt = prevAt + 64 + P_HASH.length;
-		if (!startsAt(line, hashAt + 64, P_EVENT)) return bad();
 		const bodyAt = hashAt + 64 + P_EVENT.length;
-		if (line[line.length - 1] !== 125 /* } */ || bodyAt >= line.length - 1) return bad();
-		const bodyLen = line.length - 1 - bodyAt;
-		const message = new Uint8Array(64 + bodyLen);
-		message.set(line.subarray(prevAt, prevAt + 64));
-		message.set(line.subarray(bodyAt, line.length - 1), 64);
-		this.batch.push({ seq, line, prevAt, hashAt, bodyAt, message });
+		if (i === P_SEQ.length || !startsAt(line, i, P_PREV) || !startsAt(line, prevAt + 64, P_HASH) || !startsAt(line, hashAt + 64, P_EVENT) || line[line.length - 1] !== 125 /* } */ || bodyAt >= line.length - 1) {
+			const at = this.expect + this.batch.length;
+			return this.fail(at, `event ${at}: line ${this.lineNo} is not an event line of the bundle format`);
+		}
+		this.batch.push({ seq, line, prevAt, hashAt, bodyAt, message: EMPTY });
+		this.pending += 64 + line.length - 1 - bodyAt;
 		this.eventsRead++;
 		if (this.batch.length >= this.batchSize) await this.flush();
 	}
@@ -436,22 +445,40 @@ export class BundleVerifier {
 		const batch = this.batch;
 		if (!batch.length || this.chainBreak) return;
 		this.batch = [];
-		const digests = await this.crypto.sha256(batch.map((p) => p.message));
+		// the hashed bytes of every event of the batch (prev, then the event's text) side by side in one buffer
+		const pool = new Uint8Array(this.pending);
+		this.pending = 0;
+		let o = 0;
+		for (let k = 0; k < batch.length; k++) {
+			const p = batch[k];
+			const end = p.line.length - 1;
+			pool.set(p.line.subarray(p.prevAt, p.prevAt + 64), o);
+			pool.set(p.line.subarray(p.bodyAt, end), o + 64);
+			p.message = pool.subarray(o, o + 64 + end - p.bodyAt);
+			o += 64 + end - p.bodyAt;
+		}
+		const digests = await this.crypto.sha256(batch.map(messageOf));
 		for (let k = 0; k < batch.length; k++) {
 			const p = batch[k];
 			const seq = this.expect;
 			if (p.seq !== seq) return this.fail(seq, p.seq > seq ? `event ${seq} is missing (event ${p.seq} stands in its place)` : `event ${p.seq} is out of place (event ${seq} expected)`);
 			// the link: prev is the hash of the event before
-			for (let i = 0; i < 64; i++) if (p.line[p.prevAt + i] !== this.prevBytes[i]) return this.fail(seq, 'link to the previous event does not match');
-			if (!hexAt(p.line, p.hashAt, digests[k])) return this.fail(seq, 'content does not match its hash');
+			const line = p.line;
+			const prevLine = this.prevLine;
+			const prevAt = this.prevAt;
+			for (let i = 0; i < 64; i++) if (line[p.prevAt + i] !== prevLine[prevAt + i]) return this.fail(seq, 'link to the previous event does not match');
+			if (!hexAt(line, p.hashAt, digests[k])) return this.fail(seq, 'content does not match its hash');
 			// the event's own text must say its seq (the last top-level member but its subject)
-			const body = p.line.subarray(p.bodyAt, p.line.length - 1);
-			const s = lastIndexOf(body, P_BODY_SEQ);
-			if (s < 0 || !seqAt(body, s + P_BODY_SEQ.length, seq)) return this.fail(seq, 'the event does not say its own seq');
-			this.prevBytes = p.line.slice(p.hashAt, p.hashAt + 64);
+			const s = lastIndexOf(line, P_BODY_SEQ, p.bodyAt);
+			if (s < 0 || !seqAt(line, s + P_BODY_SEQ.length, seq)) return this.fail(seq, 'the event does not say its own seq');
+			this.prevLine = line;
+			this.prevAt = p.hashAt;
 			const cp = this.validCp.get(seq);
 			if (cp) {
-				if (!hexEq(this.prevBytes, cp.hash)) return this.fail(rewrittenBreak(seq, this.lastGood).at, rewrittenBreak(seq, this.lastGood).reason);
+				if (!hexEq(line.subarray(p.hashAt, p.hashAt + 64), cp.hash)) {
+					const b = rewrittenBreak(seq, this.lastGood);
+					return this.fail(b.at, b.reason);
+				}
 				this.lastGood = seq;
 				this.matched++;
 			}
@@ -486,7 +513,7 @@ export class BundleVerifier {
 			from,
 			to: h?.to ?? null,
 			checkpoints: { valid: this.validCp.size, total: this.rawCheckpoints.length, matched: this.matched },
-			head: this.expect > first ? new TextDecoder().decode(this.prevBytes) : null
+			head: this.expect > first ? new TextDecoder().decode(this.prevLine.subarray(this.prevAt, this.prevAt + 64)) : null
 		};
 	}
 }
@@ -497,18 +524,24 @@ function hexEq(bytes: Uint8Array, hex: string): boolean {
 	return true;
 }
 
-function lastIndexOf(hay: Uint8Array, needle: Uint8Array): number {
-	outer: for (let i = hay.length - needle.length; i >= 0; i--) {
+const EMPTY = new Uint8Array(0);
+const messageOf = (p: Pending) => p.message;
+
+/** The last place of `needle` in hay[from…]. */
+function lastIndexOf(hay: Uint8Array, needle: Uint8Array, from = 0): number {
+	outer: for (let i = hay.length - needle.length; i >= from; i--) {
 		for (let j = 0; j < needle.length; j++) if (hay[i + j] !== needle[j]) continue outer;
 		return i;
 	}
 	return -1;
 }
 
+/** Do the bytes at body[at…] spell the decimal seq, followed by a comma? */
 function seqAt(body: Uint8Array, at: number, seq: number): boolean {
-	const s = String(seq);
-	for (let i = 0; i < s.length; i++) if (body[at + i] !== s.charCodeAt(i)) return false;
-	return body[at + s.length] === 44 /* , */;
+	let n = 0;
+	let i = at;
+	while (body[i] >= 48 && body[i] <= 57) n = n * 10 + (body[i++] - 48);
+	return i > at && n === seq && body[i] === 44 /* , */ && (body[at] !== 48 || i === at + 1);
 }
 
 /** Verifies a whole bundle held in memory (tests, small bundles). */

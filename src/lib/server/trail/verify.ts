@@ -3,7 +3,8 @@ import { createHash, hash as cryptoHash } from 'node:crypto';
 import pg from 'pg';
 import type { Sequelize } from 'sequelize';
 import { CopyOutQuery, submitCopyOut, type CopyOutParser } from '../copy-out';
-import { canonicalRawRow, checkCheckpoint, earliest, GENESIS_HASH, keyMap, matchCheckpoints, type Break, type CheckpointFields } from '../../domain/trail-verify';
+import { withPooledConnection } from '../prepared';
+import { canonicalRawRow, checkCheckpoint, earliest, GENESIS_HASH, keyMap, matchCheckpoints, type Break, type CheckpointFields, type PublicKeyEntry } from '../../domain/trail-verify';
 import { listCheckpoints, listKeys } from './checkpoints';
 import { nodeTrailCrypto } from './node-crypto';
 
@@ -75,9 +76,30 @@ function connect(sequelize: Sequelize): pg.Client {
  * append-only table is seq order; at the first event out of that order it gives up with
  * `outOfOrder`, and the caller reads the range again in seq order.
  */
-async function verifyRange(sequelize: Sequelize, matches: string, lo: number, hi: number, physical = false): Promise<RangeResult> {
+async function verifyRange(sequelize: Sequelize, matches: string, lo: number, hi: number, physical = false, pooled = false): Promise<RangeResult> {
+	if (pooled) {
+		// a short range (incremental verification): on a connection of the pool, which is closed instead
+		// of given back if the COPY is left part-way
+		return withPooledConnection(sequelize, async (c) => {
+			const r = await verifyRangeOn(c as pg.Client, matches, lo, hi, physical).catch((e) => {
+				c._invalid = true;
+				throw e;
+			});
+			if (r.abandoned || r.outOfOrder) c._invalid = true;
+			else await c.query('RESET jit');
+			return r;
+		});
+	}
 	const client = connect(sequelize);
 	await client.connect();
+	try {
+		return await verifyRangeOn(client, matches, lo, hi, physical);
+	} finally {
+		await client.end().catch(() => {});
+	}
+}
+
+async function verifyRangeOn(client: pg.Client, matches: string, lo: number, hi: number, physical: boolean): Promise<RangeResult & { abandoned?: true }> {
 	let q: CopyOutQuery | null = null;
 	try {
 		// the previous event's hash: known from the start for the first range; any other takes its
@@ -147,14 +169,12 @@ async function verifyRange(sequelize: Sequelize, matches: string, lo: number, hi
 		if (outOfOrder) return { outOfOrder, firstPrev: null, lastHash: null, broken: null };
 		if (!broken && !q.parser.ended) throw new Error('the trail stream ended early');
 		if (!broken && expectSeq <= hi) stop(`event ${expectSeq} is missing`);
-		return { firstPrev, lastHash: expectSeq > lo ? prev : null, broken };
+		return { firstPrev, lastHash: expectSeq > lo ? prev : null, broken, ...(q.parser.finished ? {} : { abandoned: true as const }) };
 	} finally {
 		// stopping part-way through a COPY leaves the connection mid-protocol: close it outright
 		if (q && !q.parser?.finished) q.abandon();
-		await client.end().catch(() => {});
 	}
 }
-
 
 /**
  * Walks the chain in seq order and reports the first event that is missing, whose link to the
@@ -211,8 +231,8 @@ export async function verifyChain(sequelize: Sequelize, opts: { ranges?: number 
 }
 
 /** What the signed checkpoints say about the chain: the first one it no longer leads to, or a bad signature. */
-async function checkpointFindings(sequelize: Sequelize, afterSeq = 0, lastGood = 0): Promise<{ broken: Break | null; valid: number; total: number; matched: number }> {
-	const [cps, keys] = await Promise.all([listCheckpoints(sequelize, { after: afterSeq }), listKeys(sequelize)]);
+async function checkpointFindings(sequelize: Sequelize, afterSeq = 0, lastGood = 0, known?: PublicKeyEntry[]): Promise<{ broken: Break | null; valid: number; total: number; matched: number }> {
+	const [cps, keys] = await Promise.all([listCheckpoints(sequelize, { after: afterSeq }), known ?? listKeys(sequelize)]);
 	if (!cps.length) return { broken: null, valid: 0, total: 0, matched: 0 };
 	const km = keyMap(keys);
 	let broken: Break | null = null;
@@ -252,6 +272,9 @@ export async function verifyTrail(sequelize: Sequelize, opts: { ranges?: number 
 	return { ok: false, events: found.at - 1, firstBrokenAt: found.at, reason: found.reason, checkpoints };
 }
 
+/** A range up to this long is read on a connection of the pool (no connection set up per verification). */
+const POOLED_RANGE = 200_000;
+
 export interface IncrementalResult extends VerifyResult {
 	/** the checkpoint verification started from */
 	checkpoint: { seq: number; keyId: string; time: string | null; signature: 'valid' | 'invalid'; reason?: string };
@@ -274,22 +297,13 @@ export async function verifyFromCheckpoint(sequelize: Sequelize, from: number): 
 	const c = await checkCheckpoint(cp, keyMap(keys), nodeTrailCrypto);
 	const time = c.ok ? c.fields.time : null;
 	const sig = { seq: cp.seq, keyId: cp.keyId, time, signature: c.ok ? ('valid' as const) : ('invalid' as const), ...(c.ok ? {} : { reason: c.reason }) };
-	const client = connect(sequelize);
-	await client.connect();
-	let head: number;
-	let matches: string;
-	let atCp: string | null;
-	try {
-		const r = await client.query<{ intact: boolean | null; head: string | null; at_cp: string | null }>(
-			`SELECT (${GENERATED_CHECK}) AS intact, (SELECT max(seq)::text FROM trail_events) AS head, (SELECT hash FROM trail_events WHERE seq = $1) AS at_cp`,
-			[cp.seq]
-		);
-		head = Number(r.rows[0].head ?? 0);
-		matches = r.rows[0].intact === true ? 'body_matches' : BODY_MATCHES_EXPR;
-		atCp = r.rows[0].at_cp;
-	} finally {
-		await client.end().catch(() => {});
-	}
+	// on a pooled connection: only the COPY below needs a connection of its own
+	const [r] = (await sequelize.query(`SELECT (${GENERATED_CHECK}) AS intact, (SELECT max(seq)::text FROM trail_events) AS head, (SELECT hash FROM trail_events WHERE seq = :seq) AS at_cp`, {
+		replacements: { seq: cp.seq }
+	})) as [{ intact: boolean | null; head: string | null; at_cp: string | null }[], unknown];
+	const head = Number(r[0].head ?? 0);
+	const matches = r[0].intact === true ? 'body_matches' : BODY_MATCHES_EXPR;
+	const atCp = r[0].at_cp;
 	const none = { valid: 0, total: 0, matched: 0 };
 	const result = (b: Break | null, checkpoints = none): IncrementalResult => ({
 		ok: b === null,
@@ -304,11 +318,10 @@ export async function verifyFromCheckpoint(sequelize: Sequelize, from: number): 
 	if (!c.ok) return result({ at: cp.seq, reason: c.reason });
 	if (atCp !== cp.hash) return result({ at: cp.seq, reason: `the chain no longer has the hash signed at checkpoint ${cp.seq}: it was changed at or before that event (the full verification names where)` });
 	let broken: Break | null = null;
-	if (head > cp.seq) {
-		const r = await verifyRange(sequelize, matches, cp.seq + 1, head);
-		if (r.firstPrev !== null && r.firstPrev !== cp.hash) broken = { at: cp.seq + 1, reason: 'link to the previous event does not match' };
-		else if (r.broken) broken = r.broken;
+	const [range, later] = await Promise.all([head > cp.seq ? verifyRange(sequelize, matches, cp.seq + 1, head, false, head - cp.seq <= POOLED_RANGE) : null, checkpointFindings(sequelize, cp.seq, cp.seq, keys)]);
+	if (range) {
+		if (range.firstPrev !== null && range.firstPrev !== cp.hash) broken = { at: cp.seq + 1, reason: 'link to the previous event does not match' };
+		else if (range.broken) broken = range.broken;
 	}
-	const later = await checkpointFindings(sequelize, cp.seq, cp.seq);
 	return result(earliest(broken, later.broken), { valid: later.valid + 1, total: later.total + 1, matched: later.matched + 1 });
 }
