@@ -324,9 +324,11 @@ export class BundleVerifier {
 		return this.chainBreak !== null;
 	}
 
-	async push(chunk: Uint8Array): Promise<void> {
-		this.bytesRead += chunk.length;
+	async push(bytes: Uint8Array): Promise<void> {
+		this.bytesRead += bytes.length;
 		if (this.chainBreak) return;
+		// a plain view (node's Buffer makes each of its slices a Buffer, which costs more per line)
+		const chunk = new Uint8Array(bytes.buffer, bytes.byteOffset, bytes.length);
 		let from = 0;
 		if (this.rest) {
 			// the line begun in the chunk before ends in this one: only that line is joined
@@ -451,9 +453,10 @@ export class BundleVerifier {
 		let o = 0;
 		for (let k = 0; k < batch.length; k++) {
 			const p = batch[k];
-			const end = p.line.length - 1;
-			pool.set(p.line.subarray(p.prevAt, p.prevAt + 64), o);
-			pool.set(p.line.subarray(p.bodyAt, end), o + 64);
+			const line = p.line;
+			const end = line.length - 1;
+			for (let i = 0; i < 64; i++) pool[o + i] = line[p.prevAt + i];
+			pool.set(line.subarray(p.bodyAt, end), o + 64);
 			p.message = pool.subarray(o, o + 64 + end - p.bodyAt);
 			o += 64 + end - p.bodyAt;
 		}
