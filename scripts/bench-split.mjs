@@ -46,7 +46,8 @@ try {
 	app = spawn(process.execPath, [...profileArgs, 'build'], { stdio: ['ignore', 'ignore', 'inherit'], env: { ...process.env, ...env } });
 	await waitForPort(Number(env.PORT), 'the app');
 	const base = `http://127.0.0.1:${env.PORT}`;
-	const db = new pg.Client({ host: '127.0.0.1', port: Number(env.REGOLOG_DB_PORT), user: env.REGOLOG_DB_USER, password: env.REGOLOG_DB_PASSWORD, database: env.REGOLOG_DB_NAME });
+	// the benchmark's own set-up (its tables, the parents) is the owner's; pgbench and the app run as the app's role
+	const db = new pg.Client({ host: '127.0.0.1', port: Number(env.REGOLOG_DB_PORT), user: env.REGOLOG_DB_OWNER, password: env.REGOLOG_DB_OWNER_PASSWORD, database: env.REGOLOG_DB_NAME });
 	// a failed run stops the cluster under this connection: that is reported below, not thrown again
 	db.on('error', () => {});
 	await db.connect();
