@@ -22,10 +22,11 @@ type MigrationModule = {
  * runs as one implicit transaction, so a failing migration leaves nothing half-done.
  */
 export function migrator(sequelize: Sequelize, dir = resolve(process.cwd(), 'migrations')) {
+	const { owner, app } = roles(sequelize);
 	const files = readdirSync(dir)
 		.filter((f) => /^\d{4}-.*\.js$/.test(f))
 		.sort();
-	return new Umzug<MigrationContext>({
+	const umzug = new Umzug<MigrationContext>({
 		migrations: files.map((f) => {
 			const path = join(dir, f);
 			const load = async () => (await import(pathToFileURL(path).href)) as MigrationModule;
@@ -42,10 +43,36 @@ export function migrator(sequelize: Sequelize, dir = resolve(process.cwd(), 'mig
 				}
 			};
 		}),
-		context: { queryInterface: sequelize.getQueryInterface(), sequelize },
-		storage: new SequelizeStorage({ sequelize, tableName: 'schema_migrations' }),
+		context: { queryInterface: owner.getQueryInterface(), sequelize: owner },
+		storage: new SequelizeStorage({ sequelize: owner, tableName: 'schema_migrations' }),
 		logger: undefined
 	});
+	// after every up or down, however far: the app's rights on what the migrations made
+	umzug.on('afterCommand', () => grantAppPrivileges(owner, app));
+	return umzug;
+}
+
+/** Owner connections opened for a migrator given the app's connection, one per database. */
+const ownerConnections = new Map<string, Sequelize>();
+
+/**
+ * The connection migrations run on, and the app role to grant: given the owner's connection, that
+ * one; given the app's, an owner connection to the same database (kept for later migrators).
+ */
+function roles(sequelize: Sequelize): { owner: Sequelize; app: string } {
+	if (sequelize.config.username === config.db.owner) return { owner: sequelize, app: config.db.user };
+	const c = sequelize.config;
+	const key = `${c.host}:${c.port}/${c.database}`;
+	let owner = ownerConnections.get(key);
+	if (!owner) ownerConnections.set(key, (owner = ownerConnection(sequelize)));
+	return { owner, app: c.username };
+}
+
+/** Closes the owner connections migrators opened (scripts call it before they exit). */
+export async function closeOwnerConnections(): Promise<void> {
+	const all = [...ownerConnections.values()];
+	ownerConnections.clear();
+	await Promise.all(all.map((s) => s.close()));
 }
 
 /**
@@ -84,19 +111,18 @@ export async function grantAppPrivileges(owner: Sequelize, app = config.db.user)
 }
 
 /**
- * Runs the pending migrations as the owner role and then grants the app role its rights. Given a
- * connection as the app role (as the scripts and tests hold), it opens one as the owner to the same
- * database for the run.
+ * Runs the pending migrations as the owner role, and grants the app role its rights afterwards (as
+ * every command of a migrator does). Given a connection as the app role (as the scripts and tests
+ * hold), it runs them on an owner connection to the same database, closed afterwards.
  */
 export async function migrateUp(sequelize: Sequelize): Promise<string[]> {
 	const asOwner = sequelize.config.username === config.db.owner;
-	const owner = asOwner ? sequelize : ownerConnection(sequelize);
-	const app = asOwner ? config.db.user : sequelize.config.username;
-	try {
-		const done = await migrator(owner).up();
-		await grantAppPrivileges(owner, app);
-		return done.map((m) => m.name);
-	} finally {
-		if (!asOwner) await owner.close();
+	const done = await migrator(sequelize).up();
+	if (!asOwner) {
+		const c = sequelize.config;
+		const key = `${c.host}:${c.port}/${c.database}`;
+		await ownerConnections.get(key)?.close();
+		ownerConnections.delete(key);
 	}
+	return done.map((m) => m.name);
 }
