@@ -111,7 +111,7 @@ const NIBBLE = new Uint8Array(256).fill(255);
 for (let i = 0; i < 16; i++) NIBBLE[HEX.charCodeAt(i)] = i;
 
 /** Do the 64 bytes at line[at…] spell the 32-byte digest in lower-case hex? No string is made. */
-function hexAt(line: Uint8Array, at: number, digest: Uint8Array): boolean {
+export function hexAt(line: Uint8Array, at: number, digest: Uint8Array): boolean {
 	for (let i = 0; i < 32; i++) {
 		if (((NIBBLE[line[at + 2 * i]] << 4) | NIBBLE[line[at + 2 * i + 1]]) !== digest[i] || NIBBLE[line[at + 2 * i]] === 255 || NIBBLE[line[at + 2 * i + 1]] === 255) return false;
 	}

@@ -4,7 +4,7 @@ import pg from 'pg';
 import type { Sequelize } from 'sequelize';
 import { CopyOutQuery, submitCopyOut, type CopyOutParser } from '../copy-out';
 import { withPooledConnection } from '../prepared';
-import { canonicalRawRow, checkCheckpoint, earliest, GENESIS_HASH, keyMap, matchCheckpoints, type Break, type CheckpointFields, type PublicKeyEntry } from '../../domain/trail-verify';
+import { canonicalRawRow, checkCheckpoint, earliest, GENESIS_HASH, hexAt, keyMap, matchCheckpoints, type Break, type CheckpointFields, type PublicKeyEntry } from '../../domain/trail-verify';
 import { listCheckpoints, listKeys } from './checkpoints';
 import { nodeTrailCrypto } from './node-crypto';
 
@@ -43,6 +43,8 @@ const BODY_MATCHES_EXPR = 'trail_body_matches(body, seq, at, actor_id, actor_lab
 const GENERATED_CHECK = `SELECT a.attgenerated = 's' AND pg_get_expr(d.adbin, d.adrelid) LIKE '${BODY_MATCHES_EXPR}' AS intact
 	FROM pg_attribute a JOIN pg_attrdef d ON d.adrelid = a.attrelid AND d.adnum = a.attnum
 	WHERE a.attrelid = 'trail_events'::regclass AND a.attname = 'body_matches'`;
+const sha256bytes: (data: Buffer) => Buffer =
+	typeof cryptoHash === 'function' ? (data) => cryptoHash('sha256', data, 'buffer') as unknown as Buffer : (data) => createHash('sha256').update(data).digest();
 const sha256hex: (data: string | Buffer) => string =
 	typeof cryptoHash === 'function' ? (data) => cryptoHash('sha256', data, 'hex') : (data) => createHash('sha256').update(data).digest('hex');
 
@@ -105,6 +107,15 @@ async function verifyRangeOn(client: pg.Client, matches: string, lo: number, hi:
 		// the previous event's hash: known from the start for the first range; any other takes its
 		// first event's prev_hash as given
 		let prev = GENESIS_HASH;
+		// the previous event's hash as the 32 bytes node computed (then authoritative over `prev`)
+		let prevDigest: Buffer | null = null;
+		const prevText = () => {
+			if (prevDigest) {
+				prev = prevDigest.toString('hex');
+				prevDigest = null;
+			}
+			return prev;
+		};
 		let havePrev = lo === 1;
 		let firstPrev: string | null = null;
 		let expectSeq = lo;
@@ -133,7 +144,7 @@ async function verifyRangeOn(client: pg.Client, matches: string, lo: number, hi:
 					if (!havePrev) prev = prevHash;
 					havePrev = true;
 				}
-				if (prevHash !== prev) return stop('link to the previous event does not match');
+				if (prevHash !== prevText()) return stop('link to the previous event does not match');
 				if (start[2] >= 0 && buf[start[2]] === 0) return stop('content does not match its hash');
 				const [, at, actorId, actorLabel, action, subjectType, subjectId, before, after] = legacy;
 				const json = (v: unknown) => (v === null ? null : JSON.stringify(v));
@@ -151,13 +162,13 @@ async function verifyRangeOn(client: pg.Client, matches: string, lo: number, hi:
 				havePrev = true;
 			}
 			// the link: prev_hash is the previous event's hash
-			if (!bytesAre(buf, ps, ps + 64, prev)) return stop('link to the previous event does not match');
+			if (prevDigest ? !hexAt(buf, ps, prevDigest) : !bytesAre(buf, ps, ps + 64, prev)) return stop('link to the previous event does not match');
 			// 0: the columns no longer say what the hashed body says
 			if (start[2] >= 0 && buf[start[2]] === 0) return stop('content does not match its hash');
-			// the bytes prev_hash || body, hashed where they lie in the stream
-			const digest = sha256hex(buf.subarray(ps, end[3]));
-			if (!bytesAre(buf, start[1], end[1], digest)) return stop('content does not match its hash');
-			prev = digest;
+			// the bytes prev_hash || body, hashed where they lie in the stream, compared with the stored hash byte by byte
+			const digest = sha256bytes(buf.subarray(ps, end[3]));
+			if (end[1] - start[1] !== 64 || !hexAt(buf, start[1], digest)) return stop('content does not match its hash');
+			prevDigest = digest;
 			expectSeq++;
 			return true;
 		};
@@ -169,7 +180,7 @@ async function verifyRangeOn(client: pg.Client, matches: string, lo: number, hi:
 		if (outOfOrder) return { outOfOrder, firstPrev: null, lastHash: null, broken: null };
 		if (!broken && !q.parser.ended) throw new Error('the trail stream ended early');
 		if (!broken && expectSeq <= hi) stop(`event ${expectSeq} is missing`);
-		return { firstPrev, lastHash: expectSeq > lo ? prev : null, broken, ...(q.parser.finished ? {} : { abandoned: true as const }) };
+		return { firstPrev, lastHash: expectSeq > lo ? prevText() : null, broken, ...(q.parser.finished ? {} : { abandoned: true as const }) };
 	} finally {
 		// stopping part-way through a COPY leaves the connection mid-protocol: close it outright
 		if (q && !q.parser?.finished) q.abandon();
