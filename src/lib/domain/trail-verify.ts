@@ -311,6 +311,7 @@ export class BundleVerifier {
 	private chainBreak: Break | null = null;
 	private ended = false;
 	private batch: Pending[] = [];
+	private inflight: { batch: Pending[]; digests: Uint8Array[] | Promise<Uint8Array[]> } | null = null;
 	/** events read so far, for a progress bar */
 	eventsRead = 0;
 	bytesRead = 0;
@@ -440,13 +441,32 @@ export class BundleVerifier {
 		this.batch.push({ seq, line, prevAt, hashAt, bodyAt, message: EMPTY });
 		this.pending += 64 + line.length - 1 - bodyAt;
 		this.eventsRead++;
-		if (this.batch.length >= this.batchSize) await this.flush();
+		if (this.batch.length >= this.batchSize) await this.flush(false);
 	}
 
-	private async flush(): Promise<void> {
+	/**
+	 * Hashes the batch read so far and checks it. With `drain` false the hashing of this batch is
+	 * only started, and the batch before is checked meanwhile: an SHA-256 that runs elsewhere (a
+	 * worker thread, the browser's Web Crypto) then hashes one batch while the next is read.
+	 */
+	private async flush(drain = true): Promise<void> {
 		const batch = this.batch;
-		if (!batch.length || this.chainBreak) return;
-		this.batch = [];
+		if (this.chainBreak) return;
+		const previous = this.inflight;
+		this.inflight = null;
+		if (batch.length) {
+			this.batch = [];
+			this.inflight = { batch, digests: this.hashBatch(batch) };
+		}
+		if (previous) await this.check(previous);
+		if (drain && this.inflight && !this.chainBreak) {
+			const last = this.inflight;
+			this.inflight = null;
+			await this.check(last);
+		}
+	}
+
+	private hashBatch(batch: Pending[]): Uint8Array[] | Promise<Uint8Array[]> {
 		// the hashed bytes of every event of the batch (prev, then the event's text) side by side in one buffer
 		const pool = new Uint8Array(this.pending);
 		this.pending = 0;
@@ -460,7 +480,13 @@ export class BundleVerifier {
 			p.message = pool.subarray(o, o + 64 + end - p.bodyAt);
 			o += 64 + end - p.bodyAt;
 		}
-		const digests = await this.crypto.sha256(batch.map(messageOf));
+		return this.crypto.sha256(batch.map(messageOf));
+	}
+
+	private async check(job: { batch: Pending[]; digests: Uint8Array[] | Promise<Uint8Array[]> }): Promise<void> {
+		const batch = job.batch;
+		const digests = await job.digests;
+		if (this.chainBreak) return;
 		for (let k = 0; k < batch.length; k++) {
 			const p = batch[k];
 			const seq = this.expect;

@@ -2,10 +2,12 @@
 // and node's own SHA-256 and Ed25519. `npx regolog-verify` runs this.
 import { createReadStream } from 'node:fs';
 import { BundleVerifier, type BundleResult } from '../../domain/trail-verify';
-import { nodeTrailCrypto } from './node-crypto';
+import { workerTrailCrypto } from './hash-worker';
 
 export async function verifyBundleFile(path: string, opts: { onProgress?: (bytes: number, events: number) => void } = {}): Promise<BundleResult> {
-	const v = new BundleVerifier(nodeTrailCrypto);
+	// SHA-256 on a worker thread while this one reads and checks
+	const crypto = workerTrailCrypto();
+	const v = new BundleVerifier(crypto);
 	const stream = createReadStream(path, { highWaterMark: 1 << 20 });
 	try {
 		for await (const chunk of stream) {
@@ -13,10 +15,11 @@ export async function verifyBundleFile(path: string, opts: { onProgress?: (bytes
 			opts.onProgress?.(v.bytesRead, v.eventsRead);
 			if (v.done) break;
 		}
+		return await v.end();
 	} finally {
 		stream.destroy();
+		await crypto.close();
 	}
-	return v.end();
 }
 
 /** The command line: exit status 0 when the bundle is intact, 1 when broken (the first broken event named), 2 on bad use. */
