@@ -26,7 +26,7 @@ test('an auditor checks the trail from its last checkpoint, exports a bundle and
 	await page.getByRole('button', { name: 'Verify since the last checkpoint' }).click();
 	await expect(page.getByTestId('verify-result')).toContainText(/Intact\. The checkpoint at event [\d,]+ verifies, and (all [\d,]+ events after it link up|the one event after it links up)/);
 	await page.getByRole('button', { name: 'Verify the whole trail' }).click();
-	await expect(page.getByTestId('verify-result')).toContainText(/Intact\. All [\d,]+ events link up and match their hashes, and the chain leads to all \d+ signed checkpoints/);
+	await expect(page.getByTestId('verify-result')).toContainText(/Intact\. All [\d,]+ events link up and match their hashes, and the chain leads to (all \d+ signed checkpoints|the signed checkpoint)/);
 
 	await page.getByRole('button', { name: 'Export bundle' }).click();
 	await expect(page.getByTestId('trail-progress')).toContainText('100 %');
