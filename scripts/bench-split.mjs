@@ -46,7 +46,8 @@ try {
 	app = spawn(process.execPath, [...profileArgs, 'build'], { stdio: ['ignore', 'ignore', 'inherit'], env: { ...process.env, ...env } });
 	await waitForPort(Number(env.PORT), 'the app');
 	const base = `http://127.0.0.1:${env.PORT}`;
-	const db = new pg.Client({ host: '127.0.0.1', port: Number(env.REGOLOG_DB_PORT), user: env.REGOLOG_DB_USER, password: env.REGOLOG_DB_PASSWORD, database: env.REGOLOG_DB_NAME });
+	// the benchmark's own set-up (its tables, the parents) is the owner's; pgbench and the app run as the app's role
+	const db = new pg.Client({ host: '127.0.0.1', port: Number(env.REGOLOG_DB_PORT), user: env.REGOLOG_DB_OWNER, password: env.REGOLOG_DB_OWNER_PASSWORD, database: env.REGOLOG_DB_NAME });
 	// a failed run stops the cluster under this connection: that is reported below, not thrown again
 	db.on('error', () => {});
 	await db.connect();
@@ -145,9 +146,8 @@ INSERT INTO ledger_entries (item_id, seq, kind, delta_ug, balance_after_ug, spli
   (CAST(:c1 AS uuid), 1, 'split_in', ${CHILD_UG}, ${CHILD_UG}, CAST(:sid AS uuid), CAST(:pid AS uuid), ''),
   (CAST(:c2 AS uuid), 1, 'split_in', ${CHILD_UG}, ${CHILD_UG}, CAST(:sid AS uuid), CAST(:pid AS uuid), '');
 UPDATE items SET mass_ug = CAST(:m AS bigint) - ${2 * CHILD_UG}, updated_at = now() WHERE id = CAST(:pid AS uuid);
-INSERT INTO trail_events (seq, at, actor_label, action, subject_type, subject_id, before, after, prev_hash, hash)
-  SELECT h.seq, now(), 'pgbench', 'item.split', 'item', CAST(:pid AS text), '{}', '{}', h.prev, encode(sha256(convert_to(h.prev || gen_random_uuid()::text, 'UTF8')), 'hex')
-  FROM trail_head_locked(NULL) h;
+SELECT * FROM trail_append(NULL, '{"action":"item.split","actor":{"id":null,"label":"pgbench"},"after":{},"at":"' || to_char(date_trunc('milliseconds', now()) AT TIME ZONE 'UTC', 'YYYY-MM-DD"T"HH24:MI:SS.MS"Z"') || '","before":{},"seq":',
+  ',"subject":{"id":"' || CAST(:pid AS text) || '","type":"item"}}', date_trunc('milliseconds', now()), NULL, 'pgbench', 'item.split', 'item', CAST(:pid AS text), '{}', '{}', false);
 COMMIT;
 `
 	);

@@ -12,7 +12,7 @@ import { resolve } from 'node:path';
 import pg from 'pg';
 import { Sequelize } from 'sequelize';
 import { profile } from './lib/profile.mjs';
-import { startCluster, ensureDatabase } from './lib/pg.mjs';
+import { startCluster, ensureDatabase, DEFAULT_OWNER, DEFAULT_OWNER_PASSWORD } from './lib/pg.mjs';
 import { migrateUp } from '../src/lib/server/migrator';
 import { seedDemo } from '../src/lib/server/seed';
 import { formatCode } from '../src/lib/domain/codes';
@@ -61,7 +61,8 @@ export async function generateLoad({ items, events, dbName, log = (s) => console
 	const password = process.env.REGOLOG_DB_PASSWORD ?? 'regolog-local';
 	await ensureDatabase({ port, password: cluster.password, dbName, user, userPassword: password, fresh: true });
 	const sequelize = new Sequelize(dbName, user, password, { host: '127.0.0.1', port, dialect: 'postgres', dialectModule: pg, logging: false });
-	const c = new pg.Client({ host: '127.0.0.1', port, user, password, database: dbName });
+	// generated rows, the trail's among them, are written as the owner role: the app's role may append to the trail only through trail_append()
+	const c = new pg.Client({ host: '127.0.0.1', port, user: process.env.REGOLOG_DB_OWNER ?? DEFAULT_OWNER, password: process.env.REGOLOG_DB_OWNER_PASSWORD ?? DEFAULT_OWNER_PASSWORD, database: dbName });
 	const t0 = performance.now();
 	try {
 		await migrateUp(sequelize);

@@ -4,6 +4,7 @@ import { outboxJob } from '$lib/server/outbox';
 import { remindOverdueUsage } from '$lib/server/custody/usage';
 import { documentCleanupJob } from '$lib/server/documents/cleanup';
 import { startJobs } from '$lib/server/jobs';
+import { checkpointJob } from '$lib/server/trail/checkpoints';
 import { randomUUID } from 'node:crypto';
 import { lucia } from '$lib/server/auth/lucia';
 import { decide } from '$lib/server/auth/access';
@@ -174,7 +175,9 @@ export const init: ServerInit = async () => {
 		startJobs([
 			outboxJob,
 			{ name: 'usage-reminders', everyMs: 3600_000, firstAfterMs: 10_000, shared: true, run: () => remindOverdueUsage(models()) },
-			documentCleanupJob(models)
+			documentCleanupJob(models),
+			// signed checkpoints of the trail's head: at start-up, every 1,000 events, at least hourly
+			checkpointJob(models)
 		]);
 	}
 };

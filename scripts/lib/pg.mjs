@@ -159,21 +159,66 @@ export function clusterStatus({ root }) {
 	return asPostgres(join(bin, 'pg_ctl'), ['-D', dir, 'status']).status === 0 ? 'running' : 'stopped';
 }
 
-/** Creates the app role and database when missing; with fresh=true, drops the database first. */
-export async function ensureDatabase({ port, password, dbName, user, userPassword, fresh = false }) {
+/**
+ * Creates the two roles and the database when missing; with fresh=true, drops the database first.
+ * The owner role (`owner`) owns the database, the schema and every table, trigger and function, and
+ * runs the migrations; the app's login role (`user`) gets only the rights the migrator grants it
+ * (migrator.ts). A database from before the split, where the app role owned everything, is handed
+ * over to the owner role in place (REASSIGN OWNED), so `npm start` upgrades an existing cluster.
+ */
+export const DEFAULT_OWNER = 'regolog_owner';
+export const DEFAULT_OWNER_PASSWORD = 'regolog-owner-local';
+
+export async function ensureDatabase({
+	port, password, dbName, user, userPassword,
+	owner = process.env.REGOLOG_DB_OWNER || DEFAULT_OWNER,
+	ownerPassword = process.env.REGOLOG_DB_OWNER_PASSWORD || DEFAULT_OWNER_PASSWORD,
+	fresh = false, log = () => {}
+}) {
 	const pg = (await import('pg')).default;
+	if (!owner || owner === user) throw new Error('the owner role must be another role than the app role (REGOLOG_DB_OWNER)');
 	const admin = new pg.Client({ host: '127.0.0.1', port, user: 'postgres', password, database: 'postgres' });
 	await admin.connect();
+	const ident = (s) => '"' + s.replace(/"/g, '""') + '"';
+	const lit = (s) => "'" + s.replace(/'/g, "''") + "'";
+	let created = false;
 	try {
-		const ident = (s) => '"' + s.replace(/"/g, '""') + '"';
-		const lit = (s) => "'" + s.replace(/'/g, "''") + "'";
-		const role = await admin.query('SELECT 1 FROM pg_roles WHERE rolname = $1', [user]);
-		if (role.rowCount === 0) await admin.query(`CREATE ROLE ${ident(user)} LOGIN PASSWORD ${lit(userPassword)}`);
-		else await admin.query(`ALTER ROLE ${ident(user)} LOGIN PASSWORD ${lit(userPassword)}`);
+		for (const [role, pw] of [[owner, ownerPassword], [user, userPassword]]) {
+			const found = await admin.query('SELECT 1 FROM pg_roles WHERE rolname = $1', [role]);
+			// neither role may create roles or databases, or bypass row rights; the app role is no superuser
+			const opts = `LOGIN NOSUPERUSER NOCREATEDB NOCREATEROLE NOREPLICATION NOBYPASSRLS PASSWORD ${lit(pw)}`;
+			if (found.rowCount === 0) await admin.query(`CREATE ROLE ${ident(role)} ${opts}`);
+			else await admin.query(`ALTER ROLE ${ident(role)} ${opts}`);
+		}
 		if (fresh) await admin.query(`DROP DATABASE IF EXISTS ${ident(dbName)} WITH (FORCE)`);
-		const exists = await admin.query('SELECT 1 FROM pg_database WHERE datname = $1', [dbName]);
-		if (exists.rowCount === 0) await admin.query(`CREATE DATABASE ${ident(dbName)} OWNER ${ident(user)}`);
+		const exists = await admin.query('SELECT pg_get_userbyid(datdba) AS owner FROM pg_database WHERE datname = $1', [dbName]);
+		if (exists.rowCount === 0) {
+			await admin.query(`CREATE DATABASE ${ident(dbName)} OWNER ${ident(owner)}`);
+			created = true;
+		}
 	} finally {
 		await admin.end();
 	}
+	// in the database itself: the owner owns the schema and all in it; nobody else may create there
+	const inDb = new pg.Client({ host: '127.0.0.1', port, user: 'postgres', password, database: dbName });
+	await inDb.connect();
+	try {
+		const held = await inDb.query(
+			`SELECT count(*)::int AS n FROM pg_class c JOIN pg_namespace n ON n.oid = c.relnamespace
+			 WHERE n.nspname = 'public' AND c.relowner = (SELECT oid FROM pg_roles WHERE rolname = $1)`,
+			[user]
+		);
+		if (held.rows[0].n > 0) log(`handing ${held.rows[0].n} tables and other objects of ${dbName} over from ${user} to the owner role ${owner}`);
+		// REASSIGN OWNED also moves the database itself when the app role owned it
+		await inDb.query(`REASSIGN OWNED BY ${ident(user)} TO ${ident(owner)}`);
+		await inDb.query(`ALTER DATABASE ${ident(dbName)} OWNER TO ${ident(owner)}`);
+		await inDb.query(`ALTER SCHEMA public OWNER TO ${ident(owner)}`);
+		await inDb.query(`REVOKE CREATE ON SCHEMA public FROM PUBLIC`);
+		await inDb.query(`REVOKE ALL ON DATABASE ${ident(dbName)} FROM ${ident(user)}`);
+		await inDb.query(`GRANT CONNECT, TEMPORARY ON DATABASE ${ident(dbName)} TO ${ident(user)}`);
+		await inDb.query(`GRANT USAGE ON SCHEMA public TO ${ident(user)}`);
+	} finally {
+		await inDb.end();
+	}
+	return { created };
 }

@@ -42,6 +42,10 @@ export function appEnv(pr) {
 		REGOLOG_DB_NAME: pr.dbName,
 		REGOLOG_DB_USER: process.env.REGOLOG_DB_USER ?? 'regolog',
 		REGOLOG_DB_PASSWORD: process.env.REGOLOG_DB_PASSWORD ?? 'regolog-local',
+		// the role that owns the schema and runs the migrations; the app's own role above cannot alter it
+		REGOLOG_DB_OWNER: process.env.REGOLOG_DB_OWNER ?? 'regolog_owner',
+		REGOLOG_DB_OWNER_PASSWORD: process.env.REGOLOG_DB_OWNER_PASSWORD ?? 'regolog-owner-local',
+		REGOLOG_DATA_DIR: pr.root,
 		REGOLOG_S3_ENDPOINT: process.env.REGOLOG_S3_ENDPOINT ?? `http://127.0.0.1:${pr.s3Port}`,
 		REGOLOG_S3_BUCKET: process.env.REGOLOG_S3_BUCKET ?? 'regolog-documents',
 		REGOLOG_SMTP_HOST: '127.0.0.1',

@@ -65,7 +65,10 @@ export async function startStack(name, { fresh = false } = {}) {
 		dbName: pr.dbName,
 		user: env.REGOLOG_DB_USER,
 		userPassword: env.REGOLOG_DB_PASSWORD,
-		fresh
+		owner: env.REGOLOG_DB_OWNER,
+		ownerPassword: env.REGOLOG_DB_OWNER_PASSWORD,
+		fresh,
+		log
 	});
 	if (fresh) {
 		rmSync(pr.s3Dir, { recursive: true, force: true });

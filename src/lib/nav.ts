@@ -16,6 +16,7 @@ const L = {
 	scan: { href: '/scan', label: 'Scan' },
 	balances: { href: '/balances', label: 'Balances' },
 	admin: { href: '/admin/users', label: 'Admin' },
+	trail: { href: '/audit/trail', label: 'Trail' },
 	account: { href: '/account', label: 'Account' }
 } satisfies Record<string, NavItem>;
 
@@ -29,8 +30,8 @@ export function navFor(role: Role | null): NavItem[] {
 		case 'lab_member':
 			return [L.work, L.requests, L.transfers, { href: '/items', label: 'Our material' }, L.reports, L.scan, L.account];
 		case 'auditor':
-			return [{ href: '/', label: 'Overview' }, L.collections, L.items, L.handling, L.requests, L.transfers, L.reports, L.scan, L.account];
+			return [{ href: '/', label: 'Overview' }, L.collections, L.items, L.handling, L.requests, L.transfers, L.reports, L.trail, L.scan, L.account];
 		case 'admin':
-			return [L.work, L.collections, L.items, L.handling, L.requests, L.transfers, L.reports, L.balances, L.admin, L.account];
+			return [L.work, L.collections, L.items, L.handling, L.requests, L.transfers, L.reports, L.balances, L.trail, L.admin, L.account];
 	}
 }

@@ -25,11 +25,57 @@ export async function asSuperuser<T>(database: string, fn: (c: pg.Client) => Pro
 	}
 }
 
-/** A new, empty database owned by the app role, and a Sequelize connected to it. */
+export const OWNER_ROLE = process.env.REGOLOG_DB_OWNER ?? 'regolog_owner';
+
+/**
+ * Runs SQL as the owner role of the schema (REGOLOG_DB_OWNER), which owns the trail's tables,
+ * triggers and functions: for tests that need the powers the app's own role lacks.
+ */
+export async function asOwner<T>(database: string, fn: (c: pg.Client) => Promise<T>): Promise<T> {
+	const c = new pg.Client({
+		host: process.env.REGOLOG_DB_HOST ?? '127.0.0.1',
+		port: Number(process.env.REGOLOG_DB_PORT ?? 54320),
+		user: OWNER_ROLE,
+		password: process.env.REGOLOG_DB_OWNER_PASSWORD ?? 'regolog-owner-local',
+		database
+	});
+	await c.connect();
+	try {
+		return await fn(c);
+	} finally {
+		await c.end();
+	}
+}
+
+/**
+ * Tampers with the trail as only its owner can: in one transaction, with the append-only triggers
+ * of the trail's tables off (for that transaction alone: ALTER TABLE is transactional, and its lock
+ * keeps everybody else out meanwhile), runs the SQL, and switches them on again.
+ */
+export async function tamperTrail(database: string, sql: string, params: unknown[] = []): Promise<void> {
+	const tables = ['trail_events', 'trail_checkpoints', 'trail_keys'];
+	await asOwner(database, async (c) => {
+		await c.query('BEGIN');
+		try {
+			for (const t of tables) await c.query(`ALTER TABLE ${t} DISABLE TRIGGER USER`);
+			await c.query(sql, params);
+			for (const t of tables) await c.query(`ALTER TABLE ${t} ENABLE TRIGGER USER`);
+			await c.query('COMMIT');
+		} catch (e) {
+			await c.query('ROLLBACK');
+			throw e;
+		}
+	});
+}
+
+/**
+ * A new, empty database owned by the owner role, and a Sequelize connected to it as the app role
+ * (migrateUp runs the migrations as the owner and grants the app its rights).
+ */
 export async function scratchDatabase(tag: string) {
 	const name = `regolog_${tag}_${randomBytes(4).toString('hex')}`;
 	const user = process.env.REGOLOG_DB_USER ?? 'regolog';
-	await asSuperuser('postgres', (c) => c.query(`CREATE DATABASE "${name}" OWNER "${user}"`));
+	await asSuperuser('postgres', (c) => c.query(`CREATE DATABASE "${name}" OWNER "${OWNER_ROLE}"`));
 	const sequelize = new Sequelize(name, user, process.env.REGOLOG_DB_PASSWORD ?? 'regolog-local', {
 		host: process.env.REGOLOG_DB_HOST ?? '127.0.0.1',
 		port: Number(process.env.REGOLOG_DB_PORT ?? 54320),

@@ -159,6 +159,15 @@ const MATRIX: Record<string, Record<string, Case>> = {
 	'/api/splits/[id]/handling-session': { POST: { path: `/api/splits/${SOME_UUID}/handling-session`, body: {}, expect: only(['admin', 'curator'], 401) } },
 	// trail
 	'/api/trail/verify': { GET: { path: '/api/trail/verify', expect: only(['admin', 'auditor'], 401) } },
+	'/api/trail/keys': {
+		GET: { path: '/api/trail/keys', expect: only(['admin', 'auditor'], 401) },
+		// without { "confirm": "rotate" } an admin gets 422, past the guard, and nothing rotates
+		POST: { path: '/api/trail/keys', body: {}, expect: only(['admin'], 401) }
+	},
+	'/api/trail/checkpoints': { GET: { path: '/api/trail/checkpoints?last=1', expect: only(['admin', 'auditor'], 401) } },
+	'/api/trail/export': { GET: { path: '/api/trail/export?from=1&to=3', expect: only(['admin', 'auditor'], 401) } },
+	'/audit/trail': { GET: { path: '/audit/trail', expect: only(['admin', 'auditor'], 303) } },
+	'/audit/trail/offline': { GET: { path: '/audit/trail/offline', expect: all(200, 200) } },
 	// custody
 	'/requests': { GET: { path: '/requests', expect: all(200, 303) } },
 	'/requests/new': {

@@ -19,14 +19,10 @@ import {
 	type TrailInput
 } from '../../src/lib/server/trail';
 import { CopyOutParser, CopyOutQuery, submitCopyOut } from '../../src/lib/server/copy-out';
-import { asSuperuser, scratchDatabase } from '../helpers/scratch-db';
+import { asOwner, scratchDatabase, tamperTrail } from '../helpers/scratch-db';
 
-/** Runs SQL (with parameters) as the superuser in `database`, with the trail's triggers off for that session only. */
-const tamperIn = (database: string, sql: string, params: unknown[] = []) =>
-	asSuperuser(database, async (c) => {
-		await c.query('SET session_replication_role = replica');
-		await c.query(sql, params);
-	});
+/** Runs SQL (with parameters) as the trail's owner in `database`, with the trail's triggers off for that transaction only. */
+const tamperIn = tamperTrail;
 
 /** A test of its own on an empty, migrated database, dropped afterwards. */
 async function withTrailDb(tag: string, test: (s: Awaited<ReturnType<typeof scratchDatabase>>) => Promise<void>): Promise<void> {
@@ -59,34 +55,7 @@ describe('SHA-256 and canonical JSON check vectors', () => {
 		);
 	});
 
-	// The inputs and outputs below are typed in from the text of RFC 8785 (JSON Canonicalization Scheme).
-	it('serialises primitives as RFC 8785 §3.2.2 shows', () => {
-		const input = String.raw`{
-			"numbers": [333333333.33333329, 1E30, 4.50, 2e-3, 0.000000000000000000000000001],
-			"string": "\u20ac$\u000F\u000aA'\u0042\u0022\u005c\\\"\/",
-			"literals": [null, true, false]
-		}`;
-		const output = String.raw`{"literals":[null,true,false],"numbers":[333333333.3333333,1e+30,4.5,0.002,1e-27],"string":"€$\u000f\nA'B\"\\\\\"/"}`;
-		expect(canonicalize(JSON.parse(input))).toBe(output);
-	});
-
-	it('sorts member names by UTF-16 code units as RFC 8785 §3.2.3 shows', () => {
-		const input = String.raw`{
-			"\u20ac": "Euro Sign",
-			"\r": "Carriage Return",
-			"\ufb33": "Hebrew Letter Dalet With Dagesh",
-			"1": "One",
-			"\ud83d\ude00": "Emoji: Grinning Face",
-			"\u0080": "Control",
-			"\u00f6": "Latin Small Letter O With Diaeresis"
-		}`;
-		// RFC 8785 §3.2.3: the names come out as "\r", "1", "\u0080", "\u00f6", "\u20ac", "\ud83d\ude00", "\ufb33"
-		const output =
-			'{"\\r":"Carriage Return","1":"One","\u0080":"Control","\u00f6":"Latin Small Letter O With Diaeresis",' +
-			'"\u20ac":"Euro Sign","\ud83d\ude00":"Emoji: Grinning Face","\ufb33":"Hebrew Letter Dalet With Dagesh"}';
-		expect(canonicalize(JSON.parse(input))).toBe(output);
-	});
-
+	// RFC 8785 §3.2.2 and §3.2.3 are checked for both canonicalize and canonicalParsed in tests/unit/trail-verify.test.ts
 	it('serialises numbers as RFC 8785 Appendix B lists them', () => {
 		// RFC 8785 Appendix B: IEEE 754 bit pattern → canonical text
 		const samples: [string, string][] = [
@@ -351,14 +320,43 @@ describe('the trail in the database', () => {
 		}
 	});
 
-	it('refuses UPDATE, DELETE and TRUNCATE through the app’s own connection', async () => {
+	it('refuses the app’s own role every change to the trail, and every change to its triggers and functions', async () => {
 		const q = scratch.sequelize;
-		await expect(q.query(`UPDATE trail_events SET actor_label = 'someone else' WHERE seq = 3`)).rejects.toThrow(/append-only: UPDATE refused/);
-		await expect(q.query('DELETE FROM trail_events WHERE seq = 3')).rejects.toThrow(/append-only: DELETE refused/);
-		await expect(q.query('TRUNCATE trail_events')).rejects.toThrow(/append-only: TRUNCATE refused/);
+		const [[who]] = (await q.query('SELECT current_user AS u')) as [{ u: string }[], unknown];
+		expect(who.u).toBe(process.env.REGOLOG_DB_USER ?? 'regolog');
+		await expect(q.query(`UPDATE trail_events SET actor_label = 'someone else' WHERE seq = 3`)).rejects.toThrow(/permission denied for table trail_events/);
+		await expect(q.query('DELETE FROM trail_events WHERE seq = 3')).rejects.toThrow(/permission denied for table trail_events/);
+		await expect(q.query('TRUNCATE trail_events')).rejects.toThrow(/permission denied for table trail_events/);
+		// an event can only come through trail_append(), which links and hashes it itself
+		await expect(q.query(`INSERT INTO trail_events (seq, at, actor_label, action, subject_type, subject_id, prev_hash, hash) VALUES (999, now(), 'x', 'item.weighed', 'item', 'x', repeat('0', 64), repeat('1', 64))`)).rejects.toThrow(/permission denied for table trail_events/);
+		// the triggers and functions belong to the owner role alone
+		await expect(q.query('ALTER TABLE trail_events DISABLE TRIGGER trail_no_update')).rejects.toThrow(/must be owner of table trail_events/);
+		await expect(q.query('ALTER TABLE trail_events DISABLE TRIGGER ALL')).rejects.toThrow(/must be owner of table trail_events/);
+		await expect(q.query('DROP TRIGGER trail_no_update ON trail_events')).rejects.toThrow(/must be owner of (table|relation) trail_events/);
+		await expect(q.query('ALTER FUNCTION trail_append(bigint, text, text, timestamptz, uuid, text, text, text, text, jsonb, jsonb, boolean) SECURITY INVOKER')).rejects.toThrow(/must be owner of function trail_append/);
+		await expect(q.query('ALTER FUNCTION refuse_trail_change() RENAME TO harmless')).rejects.toThrow(/must be owner of function refuse_trail_change/);
+		await expect(q.query(`CREATE OR REPLACE FUNCTION refuse_trail_change() RETURNS trigger LANGUAGE plpgsql AS $$ BEGIN RETURN NEW; END $$`)).rejects.toThrow(/must be owner of function refuse_trail_change|permission denied for schema public/);
+		await expect(q.query('ALTER TABLE trail_events ALTER COLUMN body_matches DROP EXPRESSION')).rejects.toThrow(/must be owner of table trail_events/);
+		await expect(q.query('CREATE TABLE a_table_of_its_own (x int)')).rejects.toThrow(/permission denied for schema public/);
+		// the checkpoints and keys: read and append, nothing else
+		await expect(q.query(`UPDATE trail_checkpoints SET signature = 'x'`)).rejects.toThrow(/permission denied for table trail_checkpoints/);
+		await expect(q.query('DELETE FROM trail_keys')).rejects.toThrow(/permission denied for table trail_keys/);
+		await expect(q.query('ALTER TABLE trail_checkpoints DISABLE TRIGGER USER')).rejects.toThrow(/must be owner of table trail_checkpoints/);
 		// and the app's role cannot switch triggers off for its session
 		await expect(q.query('SET session_replication_role = replica')).rejects.toThrow(/permission denied/);
+		// the owner itself still meets the triggers: the trail is append-only for everybody
+		await expect(asOwner(scratch.name, (c) => c.query(`UPDATE trail_events SET actor_label = 'someone else' WHERE seq = 3`))).rejects.toThrow(/append-only: UPDATE refused/);
+		await expect(asOwner(scratch.name, (c) => c.query('DELETE FROM trail_events WHERE seq = 3'))).rejects.toThrow(/append-only: DELETE refused/);
+		await expect(asOwner(scratch.name, (c) => c.query('TRUNCATE trail_events'))).rejects.toThrow(/append-only: TRUNCATE refused/);
 		expect(await verifyTrail(q)).toMatchObject({ ok: true, events: 25 });
+	});
+
+	it('refuses an appended event whose body does not say what its columns say', async () => {
+		const st = trailStatement({ actor: SYSTEM_ACTOR, action: 'item.weighed', subjectType: 'item', subjectId: 'TRN-0001', after: { massUg: 5 } });
+		// the same statement with another subject in the columns than in the body
+		const replacements = { ...st.replacements, trail_subject_id: 'TRN-0002' };
+		await expect(scratch.sequelize.transaction((t) => scratch.sequelize.query(st.sql, { transaction: t, replacements }))).rejects.toThrow(/does not say what its columns say/);
+		expect(await verifyTrail(scratch.sequelize)).toMatchObject({ ok: true, events: 25 });
 	});
 
 	it('finds a row changed directly in the database and names the first broken event', async () => {
@@ -400,7 +398,7 @@ describe('the trail in the database', () => {
 			await edit(`UPDATE trail_events SET body = replace(body, '"massUg":1001', '"massUg":1') WHERE seq = 2`);
 			expect(await verifyTrail(s5.sequelize, { ranges: 3 })).toMatchObject({ ok: false, events: 1, firstBrokenAt: 2 });
 			// with the generated column's definition gone, the same comparison is made row by row
-			await asSuperuser(s5.name, (c) => c.query('ALTER TABLE trail_events ALTER COLUMN body_matches DROP EXPRESSION'));
+			await asOwner(s5.name, (c) => c.query('ALTER TABLE trail_events ALTER COLUMN body_matches DROP EXPRESSION'));
 			expect(await verifyTrail(s5.sequelize)).toMatchObject({ ok: false, firstBrokenAt: 2 });
 		});
 	});
@@ -411,11 +409,11 @@ describe('the trail in the database', () => {
 			// an event as it was written before migration 0031: no body
 			const row = { seq: 4, at: new Date('2031-02-01T12:00:00.250Z'), actor_id: null, actor_label: 'system', action: 'item.weighed', subject_type: 'item', subject_id: 'TRN-0004', before: null, after: { massUg: 5 } };
 			const [[head]] = (await s6.sequelize.query('SELECT hash FROM trail_events WHERE seq = 3')) as [any[], unknown];
-			await s6.sequelize.query(
+			await asOwner(s6.name, (c) => c.query(
 				`INSERT INTO trail_events (seq, at, actor_id, actor_label, action, subject_type, subject_id, before, after, prev_hash, hash)
-				 VALUES (4, :at, NULL, 'system', 'item.weighed', 'item', 'TRN-0004', 'null', '{"massUg": 5}', :prev, :hash)`,
-				{ replacements: { at: row.at, prev: head.hash, hash: chainHash(head.hash, canonicalEvent(row)) } }
-			);
+				 VALUES (4, $1, NULL, 'system', 'item.weighed', 'item', 'TRN-0004', 'null', '{"massUg": 5}', $2, $3)`,
+				[row.at, head.hash, chainHash(head.hash, canonicalEvent(row))]
+			));
 			await append(events(2, 'after'), s6.sequelize);
 			expect(await verifyTrail(s6.sequelize)).toEqual({ ok: true, events: 6, firstBrokenAt: null });
 			expect(await verifyTrail(s6.sequelize, { ranges: 3 })).toEqual({ ok: true, events: 6, firstBrokenAt: null });

@@ -25,7 +25,24 @@ export const config = {
 		get name() { return env('REGOLOG_DB_NAME', 'regolog'); },
 		get user() { return env('REGOLOG_DB_USER', 'regolog'); },
 		get password() { return env('REGOLOG_DB_PASSWORD', 'regolog-local'); },
-		get poolMax() { return int('REGOLOG_DB_POOL', 20); }
+		get poolMax() { return int('REGOLOG_DB_POOL', 20); },
+		/** the role that owns the schema, its triggers and functions, and runs the migrations */
+		get owner() { return env('REGOLOG_DB_OWNER', 'regolog_owner'); },
+		get ownerPassword() { return env('REGOLOG_DB_OWNER_PASSWORD', 'regolog-owner-local'); }
+	},
+	/** runtime data folder (the trail's signing key lives here unless given in the environment) */
+	get dataDir() { return env('REGOLOG_DATA_DIR', '.regolog/dev'); },
+	trail: {
+		/** the Ed25519 signing key as PKCS #8 PEM; when set, no key file is used */
+		get signingKey() { return env('REGOLOG_TRAIL_SIGNING_KEY', ''); },
+		/** the key file (PKCS #8 PEM, mode 0600), made on first use */
+		get keyFile() { return env('REGOLOG_TRAIL_KEY_FILE', `${env('REGOLOG_DATA_DIR', '.regolog/dev')}/trail-signing-key.pem`); },
+		/** witnesses' addresses, comma-separated; empty: every active auditor */
+		get witnesses() { return env('REGOLOG_TRAIL_WITNESSES', '').split(',').map((s) => s.trim()).filter(Boolean); },
+		/** a checkpoint after this many events */
+		get checkpointEvery() { return int('REGOLOG_TRAIL_CHECKPOINT_EVERY', 1000); },
+		/** and at least this often (minutes) while anything is appended */
+		get checkpointMinutes() { return int('REGOLOG_TRAIL_CHECKPOINT_MINUTES', 60); }
 	},
 	storage: {
 		get endpoint() { return env('REGOLOG_S3_ENDPOINT', 'http://127.0.0.1:54311'); },

@@ -44,6 +44,22 @@ export function db(): Sequelize {
 	return instance;
 }
 
+/**
+ * A connection as the owner role (REGOLOG_DB_OWNER) to the database `like` is connected to: for
+ * migrations and the migrator's grants only. The app itself never holds one.
+ */
+export function ownerConnection(like: Sequelize): Sequelize {
+	const c = like.config;
+	return new Sequelize(c.database, config.db.owner, config.db.ownerPassword, {
+		host: c.host,
+		port: Number(c.port),
+		dialect: 'postgres',
+		dialectModule: pg,
+		logging: false,
+		pool: { max: 2, min: 0 }
+	});
+}
+
 export async function closeDb(): Promise<void> {
 	if (instance) {
 		const s = instance;

@@ -55,3 +55,18 @@ export function resetMail(name: string, token: string, facility: string) {
 		)
 	};
 }
+
+// ── Trail checkpoints (witness copies of the signed head) ───────────────────────────────────────
+
+/** A signed checkpoint for a witness to keep: the exact signed text and the signature. */
+export function checkpointMail(cp: { seq: number; hash: string; keyId: string; signed: string; signature: string }, fingerprint: string, facility: string) {
+	const href = `${config.origin}/audit/trail`;
+	const paragraphs = [
+		`The trail's head at event ${cp.seq} has been signed with key ${cp.keyId} (public key SHA-256 ${fingerprint}).`,
+		'Keep this message: it is a copy of the head outside the database, and a later verification can be compared with it.',
+		`Head hash: ${cp.hash}`,
+		`Signed text (UTF-8, exactly): ${cp.signed}`,
+		`Ed25519 signature (base64): ${cp.signature}`
+	];
+	return { subject: `Regolog trail checkpoint at event ${cp.seq}`, ...wrap('Trail checkpoint', paragraphs, { href, label: 'Open the trail' }, facility) };
+}

@@ -82,6 +82,12 @@ export const ACCESS: Record<string, Rule> = {
 	// trail
 	'/api/trail/verify': { GET: AUDITORS },
 	'/api/trail/events': { GET: AUDITORS },
+	'/api/trail/keys': { GET: AUDITORS, POST: ADMINS },
+	'/api/trail/checkpoints': { GET: AUDITORS },
+	'/api/trail/export': { GET: AUDITORS },
+	'/audit/trail': { GET: AUDITORS },
+	// the offline verifier holds no data: anybody may load it, and it sends nothing anywhere
+	'/audit/trail/offline': { GET: 'public' },
 	// labels
 	'/scan': { GET: 'signed-in' },
 	'/labels': { GET: 'signed-in' },
