@@ -5,7 +5,7 @@ import { resolve } from 'node:path';
 
 const PROFILES = {
 	dev: { app: 4310, db: 54310, s3: 54311, smtp: 54312, dbName: 'regolog' },
-	test: { app: 4320, db: 54320, s3: 54321, smtp: 54322, dbName: 'regolog_test' }
+	test: { app: 4320, db: 24320, s3: 24321, smtp: 24322, dbName: 'regolog_test' }
 };
 
 export function profile(name) {

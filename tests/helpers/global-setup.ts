@@ -2,7 +2,7 @@
 import { spawn, type ChildProcess } from 'node:child_process';
 import { existsSync } from 'node:fs';
 
-export const API_PORT = Number(process.env.REGOLOG_API_TEST_PORT ?? 54325);
+export const API_PORT = Number(process.env.REGOLOG_API_TEST_PORT ?? 24325);
 let server: ChildProcess | null = null;
 
 export async function setup() {

@@ -1,5 +1,5 @@
 // A small HTTP client for the integration tests: signs in through the JSON API and keeps the cookie.
-export const BASE = `http://127.0.0.1:${process.env.REGOLOG_API_TEST_PORT ?? 54325}`;
+export const BASE = `http://127.0.0.1:${process.env.REGOLOG_API_TEST_PORT ?? 24325}`;
 export const DEMO_PASSWORD = process.env.REGOLOG_DEMO_PASSWORD || 'brightwater-demo';
 
 export const DEMO = {

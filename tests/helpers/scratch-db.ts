@@ -7,7 +7,7 @@ function adminClient(database = 'postgres') {
 	if (!password) throw new Error('REGOLOG_PG_ADMIN_PASSWORD is not set: run the tests through `npm test`');
 	return new pg.Client({
 		host: process.env.REGOLOG_DB_HOST ?? '127.0.0.1',
-		port: Number(process.env.REGOLOG_DB_PORT ?? 54320),
+		port: Number(process.env.REGOLOG_DB_PORT ?? 24320),
 		user: 'postgres',
 		password,
 		database
@@ -34,7 +34,7 @@ export const OWNER_ROLE = process.env.REGOLOG_DB_OWNER ?? 'regolog_owner';
 export async function asOwner<T>(database: string, fn: (c: pg.Client) => Promise<T>): Promise<T> {
 	const c = new pg.Client({
 		host: process.env.REGOLOG_DB_HOST ?? '127.0.0.1',
-		port: Number(process.env.REGOLOG_DB_PORT ?? 54320),
+		port: Number(process.env.REGOLOG_DB_PORT ?? 24320),
 		user: OWNER_ROLE,
 		password: process.env.REGOLOG_DB_OWNER_PASSWORD ?? 'regolog-owner-local',
 		database
@@ -78,7 +78,7 @@ export async function scratchDatabase(tag: string) {
 	await asSuperuser('postgres', (c) => c.query(`CREATE DATABASE "${name}" OWNER "${OWNER_ROLE}"`));
 	const sequelize = new Sequelize(name, user, process.env.REGOLOG_DB_PASSWORD ?? 'regolog-local', {
 		host: process.env.REGOLOG_DB_HOST ?? '127.0.0.1',
-		port: Number(process.env.REGOLOG_DB_PORT ?? 54320),
+		port: Number(process.env.REGOLOG_DB_PORT ?? 24320),
 		dialect: 'postgres',
 		dialectModule: pg,
 		logging: false

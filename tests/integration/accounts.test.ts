@@ -197,7 +197,7 @@ describe('throttling', () => {
 describe('the mail outbox', () => {
 	it('keeps mail queued while the relay is down and delivers it once the relay returns', async () => {
 		const dir = mkdtempSync(join(process.cwd(), '.regolog', 'smtp-outbox-'));
-		const port = Number(process.env.REGOLOG_TEST_PORT_SCRATCH_S3 ?? 54324) + 10;
+		const port = Number(process.env.REGOLOG_TEST_PORT_SCRATCH_S3 ?? 24324) + 10;
 		const transport = makeTransport({ host: '127.0.0.1', port, secure: false, user: '', password: '' });
 		// the relay is down, its port held so that it can come up on it (see holdPort)
 		const dropper = await holdPort(port);

@@ -76,7 +76,7 @@ describe('the custody path through the API', () => {
 		// The receipt PDF, for both sides and the auditor.
 		const auditor = await signedIn(DEMO.auditor);
 		for (const c of [curator, lab, auditor]) {
-			const res = await fetch(`${process.env.REGOLOG_API_TEST_PORT ? `http://127.0.0.1:${process.env.REGOLOG_API_TEST_PORT}` : 'http://127.0.0.1:54325'}/api/transfers/${tid}/receipt`, { headers: { cookie: c.cookie! } });
+			const res = await fetch(`${process.env.REGOLOG_API_TEST_PORT ? `http://127.0.0.1:${process.env.REGOLOG_API_TEST_PORT}` : 'http://127.0.0.1:24325'}/api/transfers/${tid}/receipt`, { headers: { cookie: c.cookie! } });
 			expect(res.status).toBe(200);
 			expect(res.headers.get('content-type')).toBe('application/pdf');
 			expect(Buffer.from(await res.arrayBuffer()).subarray(0, 5).toString()).toBe('%PDF-');
@@ -167,7 +167,7 @@ describe('lab members see only their own lab', () => {
 		const transfers = (await marrow.get('/api/transfers')).body.transfers as { from: { name: string }; to: { name: string } }[];
 		expect(transfers.length).toBeGreaterThan(0);
 		expect(transfers.every((x) => x.from.name === 'Marrow Isotope Group' || x.to.name === 'Marrow Isotope Group')).toBe(true);
-		const page = await fetch(`http://127.0.0.1:${process.env.REGOLOG_API_TEST_PORT ?? 54325}/requests/${id}`, { headers: { cookie: marrow.cookie! } });
+		const page = await fetch(`http://127.0.0.1:${process.env.REGOLOG_API_TEST_PORT ?? 24325}/requests/${id}`, { headers: { cookie: marrow.cookie! } });
 		expect(page.status).toBe(404);
 	});
 });

@@ -7,7 +7,7 @@ import pg from 'pg';
 import { startCluster, stopCluster, portOpen, clusterDir, superuserPassword } from '../../scripts/lib/pg.mjs';
 
 const root = mkdtempSync(join(process.cwd(), '.regolog', 'scratch-cluster-'));
-const port = Number(process.env.REGOLOG_TEST_PORT_SCRATCH_DB ?? 54323);
+const port = Number(process.env.REGOLOG_TEST_PORT_SCRATCH_DB ?? 24323);
 const quiet = () => {};
 
 async function query(password: string, sql: string) {

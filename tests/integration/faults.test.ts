@@ -15,7 +15,7 @@ import { DEMO } from '../helpers/http';
  * scratch ports: the app killed with SIGKILL in the middle of a burst of splits, PostgreSQL
  * restarted under load, and the storage and mail services stopped.
  */
-const apiPort = Number(process.env.REGOLOG_API_TEST_PORT ?? 54325);
+const apiPort = Number(process.env.REGOLOG_API_TEST_PORT ?? 24325);
 // clear of the profile's own ports and of the benchmark cluster (port base + 7)
 const APP_PORT = apiPort + 5;
 const DB_PORT = apiPort + 6;

@@ -18,7 +18,7 @@ describe('health', () => {
 
 	it('names storage as failing when the object store is stopped, and recovers when it returns', async () => {
 		const dir = mkdtempSync(join(process.cwd(), '.regolog', 's3-health-'));
-		const port = Number(process.env.REGOLOG_TEST_PORT_SCRATCH_S3 ?? 54324);
+		const port = Number(process.env.REGOLOG_TEST_PORT_SCRATCH_S3 ?? 24324);
 		const settings = { ...storageSettings(), endpoint: `http://127.0.0.1:${port}`, bucket: 'health-bucket' };
 		const server = await startS3({ port, dir, bucket: 'health-bucket' });
 		// Each phase uses its own client so no kept-alive socket holds the stopped server open.

@@ -16,7 +16,7 @@ import { JOB_LOCK_CLASS, runExclusive } from '../../src/lib/server/jobs';
  * mail relay (the environment `npm test` gives). The integration tests' own server (port base + 5)
  * keeps running beside them as a third instance.
  */
-const apiPort = Number(process.env.REGOLOG_API_TEST_PORT ?? 54325);
+const apiPort = Number(process.env.REGOLOG_API_TEST_PORT ?? 24325);
 // clear of the profile's ports, the fault tests' (api + 5…8) and the benchmark cluster
 const PORT_A = apiPort + 20;
 const PORT_B = apiPort + 21;

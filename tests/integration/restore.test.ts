@@ -16,7 +16,7 @@ import { verifyTrail } from '../../src/lib/server/trail';
  * original held when the dump began.
  */
 const root = mkdtempSync(join(process.cwd(), '.regolog', 'restore-'));
-const port = Number(process.env.REGOLOG_TEST_PORT_SCRATCH_DB ?? 54323);
+const port = Number(process.env.REGOLOG_TEST_PORT_SCRATCH_DB ?? 24323);
 const SOURCE = process.env.REGOLOG_DB_NAME ?? 'regolog_test';
 const user = process.env.REGOLOG_DB_USER ?? 'regolog';
 const password = process.env.REGOLOG_DB_PASSWORD ?? 'regolog-local';
@@ -42,7 +42,7 @@ const COUNTED = ['items', 'splits', 'ledger_entries', 'trail_events', 'documents
 describe('backup and restore', () => {
 	it('a pg_dump of the database restores into a fresh cluster where the trail verifies', async () => {
 		const dump = join(root, 'regolog.dump');
-		run('pg_dump', ['--format=custom', '--no-owner', '--no-privileges', '-h', process.env.REGOLOG_DB_HOST ?? '127.0.0.1', '-p', String(process.env.REGOLOG_DB_PORT ?? 54320), '-U', user, '-d', SOURCE, '-f', dump]);
+		run('pg_dump', ['--format=custom', '--no-owner', '--no-privileges', '-h', process.env.REGOLOG_DB_HOST ?? '127.0.0.1', '-p', String(process.env.REGOLOG_DB_PORT ?? 24320), '-U', user, '-d', SOURCE, '-f', dump]);
 		expect(statSync(dump).size).toBeGreaterThan(10_000);
 
 		const cluster = await startCluster({ root, port, log: quiet });

@@ -9,7 +9,7 @@ import { asOwner, asSuperuser, OWNER_ROLE, scratchDatabase } from '../helpers/sc
 
 const APP = process.env.REGOLOG_DB_USER ?? 'regolog';
 const APP_PASSWORD = process.env.REGOLOG_DB_PASSWORD ?? 'regolog-local';
-const PORT = Number(process.env.REGOLOG_DB_PORT ?? 54320);
+const PORT = Number(process.env.REGOLOG_DB_PORT ?? 24320);
 
 function appClient(database: string) {
 	return new pg.Client({ host: '127.0.0.1', port: PORT, user: APP, password: APP_PASSWORD, database });

@@ -252,7 +252,7 @@ describe('the trail in the database', () => {
 
 	it('reads COPY tuples off the socket the same whatever the chunk boundaries, and hands the rest to the driver', async () => {
 		const client = new pg.Client({
-			host: process.env.REGOLOG_DB_HOST ?? '127.0.0.1', port: Number(process.env.REGOLOG_DB_PORT ?? 54320),
+			host: process.env.REGOLOG_DB_HOST ?? '127.0.0.1', port: Number(process.env.REGOLOG_DB_PORT ?? 24320),
 			user: process.env.REGOLOG_DB_USER ?? 'regolog', password: process.env.REGOLOG_DB_PASSWORD ?? 'regolog-local', database: scratch.name
 		});
 		await client.connect();
@@ -450,7 +450,7 @@ describe('the trail in the database', () => {
 		const s4 = await scratchDatabase('trail_concurrent');
 		const wide = new Sequelize(s4.name, process.env.REGOLOG_DB_USER ?? 'regolog', process.env.REGOLOG_DB_PASSWORD ?? 'regolog-local', {
 			host: process.env.REGOLOG_DB_HOST ?? '127.0.0.1',
-			port: Number(process.env.REGOLOG_DB_PORT ?? 54320),
+			port: Number(process.env.REGOLOG_DB_PORT ?? 24320),
 			dialect: 'postgres',
 			dialectModule: pg,
 			logging: false,
