@@ -7,32 +7,37 @@ import { Sequelize } from 'sequelize';
 import { startCluster, stopCluster, ensureDatabase, clusterDir, pgBinDir } from '../../scripts/lib/pg.mjs';
 import { asSuperuser } from '../helpers/scratch-db';
 import { verifyTrail } from '../../src/lib/server/trail';
+import { grantAppPrivileges } from '../../src/lib/server/migrator';
 
 /**
  * The restore README.md "Deploying" describes, carried out: the test database dumped with
- * pg_dump as the app's own role (custom format, no owners, no privileges), restored with
- * pg_restore into a fresh cluster of its own on the test scheme's scratch database port, as the
- * role that will own it there; then the trail verifies in the copy and the copy holds what the
- * original held when the dump began.
+ * pg_dump as the owner role (custom format, no owners, no privileges), restored with pg_restore
+ * into a fresh cluster of its own on the test scheme's scratch database port, as the owner role
+ * there, the app role's rights granted as every migrator run grants them; then the trail verifies
+ * in the copy, as the app role, and the copy holds what the original held when the dump began.
  */
 const root = mkdtempSync(join(process.cwd(), '.regolog', 'restore-'));
 const port = Number(process.env.REGOLOG_TEST_PORT_SCRATCH_DB ?? 24323);
 const SOURCE = process.env.REGOLOG_DB_NAME ?? 'regolog_test';
 const user = process.env.REGOLOG_DB_USER ?? 'regolog';
 const password = process.env.REGOLOG_DB_PASSWORD ?? 'regolog-local';
+const owner = process.env.REGOLOG_DB_OWNER ?? 'regolog_owner';
+const ownerPassword = process.env.REGOLOG_DB_OWNER_PASSWORD ?? 'regolog-owner-local';
 const TARGET = 'regolog_restored';
 const quiet = () => {};
 let restored: Sequelize | null = null;
+let restoredOwner: Sequelize | null = null;
 
 afterAll(async () => {
 	await restored?.close();
+	await restoredOwner?.close();
 	stopCluster({ root, log: quiet });
 	rmSync(dirname(clusterDir(root, quiet)), { recursive: true, force: true });
 	rmSync(root, { recursive: true, force: true });
 }, 60_000);
 
 function run(program: string, args: string[]) {
-	const r = spawnSync(join(pgBinDir()!, program), args, { env: { ...process.env, PGPASSWORD: password }, encoding: 'utf8' });
+	const r = spawnSync(join(pgBinDir()!, program), args, { env: { ...process.env, PGPASSWORD: ownerPassword }, encoding: 'utf8' });
 	if (r.status !== 0) throw new Error(`${program} failed (${r.status}):\n${r.stderr}${r.stdout}`);
 	return r;
 }
@@ -42,13 +47,16 @@ const COUNTED = ['items', 'splits', 'ledger_entries', 'trail_events', 'documents
 describe('backup and restore', () => {
 	it('a pg_dump of the database restores into a fresh cluster where the trail verifies', async () => {
 		const dump = join(root, 'regolog.dump');
-		run('pg_dump', ['--format=custom', '--no-owner', '--no-privileges', '-h', process.env.REGOLOG_DB_HOST ?? '127.0.0.1', '-p', String(process.env.REGOLOG_DB_PORT ?? 24320), '-U', user, '-d', SOURCE, '-f', dump]);
+		run('pg_dump', ['--format=custom', '--no-owner', '--no-privileges', '-h', process.env.REGOLOG_DB_HOST ?? '127.0.0.1', '-p', String(process.env.REGOLOG_DB_PORT ?? 24320), '-U', owner, '-d', SOURCE, '-f', dump]);
 		expect(statSync(dump).size).toBeGreaterThan(10_000);
 
 		const cluster = await startCluster({ root, port, log: quiet });
 		expect(cluster.reused).toBe(false);
-		await ensureDatabase({ port, password: cluster.password, dbName: TARGET, user, userPassword: password, fresh: true });
-		run('pg_restore', ['--no-owner', '--no-privileges', '--exit-on-error', '--single-transaction', '-h', '127.0.0.1', '-p', String(port), '-U', user, '-d', TARGET, dump]);
+		await ensureDatabase({ port, password: cluster.password, dbName: TARGET, user, userPassword: password, owner, ownerPassword, fresh: true });
+		run('pg_restore', ['--no-owner', '--no-privileges', '--exit-on-error', '--single-transaction', '-h', '127.0.0.1', '-p', String(port), '-U', owner, '-d', TARGET, dump]);
+		// the app role's rights, as every migrator run grants them (npm run db:setup -- --no-seed)
+		restoredOwner = new Sequelize(TARGET, owner, ownerPassword, { host: '127.0.0.1', port, dialect: 'postgres', dialectModule: pg, logging: false });
+		await grantAppPrivileges(restoredOwner, user);
 
 		restored = new Sequelize(TARGET, user, password, { host: '127.0.0.1', port, dialect: 'postgres', dialectModule: pg, logging: false });
 		const trail = await verifyTrail(restored);
