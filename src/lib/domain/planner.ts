@@ -213,7 +213,18 @@ function dominates(a: number[], b: number[]): boolean {
 
 /** The first `layers` Pareto layers of the options (block-nested-loop skyline, peeled). */
 function paretoLayers(options: Option[], layers: number): Option[] {
-	let rest = [...options].sort((x, y) => x.vector[0] - y.vector[0] || x.vector[1] - y.vector[1] || x.vector[2] - y.vector[2]);
+	// options with the same criteria are interchangeable: only the first `layers` of each (by code,
+	// the planner's own tie-break) can reach the top, so the rest never enter the fronts
+	const seen = new Map<string, number>();
+	const distinct: Option[] = [];
+	for (const o of [...options].sort((a, b) => (a.item.code < b.item.code ? -1 : a.item.code > b.item.code ? 1 : 0))) {
+		const key = o.vector.join(',');
+		const n = seen.get(key) ?? 0;
+		if (n >= layers) continue;
+		seen.set(key, n + 1);
+		distinct.push(o);
+	}
+	let rest = distinct.sort((x, y) => x.vector[0] - y.vector[0] || x.vector[1] - y.vector[1] || x.vector[2] - y.vector[2]);
 	const kept: Option[] = [];
 	for (let l = 0; l < layers && rest.length; l++) {
 		const front: Option[] = [];
@@ -478,7 +489,7 @@ function describe(c: Criterion, p: Omit<Plan, 'rank' | 'why' | 'gaveUp'>): strin
 		case 'exposure': {
 			const amb = p.steps.reduce((s, x) => s + x.exposure.total.ambient_air * (x.action === 'split' ? x.childrenUg.length : 1), 0);
 			const handled = p.steps.reduce((s, x) => s + Object.values(x.exposure.total).reduce((a, m) => a + m, 0) * (x.action === 'split' ? x.childrenUg.length : 1), 0);
-			return amb > 0 ? `${min1(amb)} of ambient air and ${min1(handled)} handled in all, inherited by the pieces` : handled > 0 ? `no ambient air; ${min1(handled)} handled in gloveboxes, cleanroom or vacuum` : 'material never out of its container';
+			return amb > 0 ? `${min1(amb)} of ambient air and ${min1(handled)} handled in all, inherited by the pieces` : handled > 0 ? `no ambient air; ${min1(handled)} handled in gloveboxes, cleanroom or vacuum` : 'no handling session on record';
 		}
 		case 'depth':
 			return `pieces at lineage depth ${p.steps.flatMap((s) => (s.action === 'split' ? s.childrenUg.map(() => s.childDepth) : [s.childDepth])).join(', ')}`;
