@@ -23,7 +23,7 @@ test('a lab asks for two pieces never exposed to ambient air; the curator plans,
 	const lab = await signIn(browser, 'analyst@fennick.example');
 	await lab.goto('/offer');
 	await lab.getByRole('link', { name: 'On offer' }).first().waitFor();
-	await lab.getByLabel('Collection', { exact: true }).selectOption('TRN');
+	await lab.locator('select[name="collection"]').selectOption('TRN');
 	await lab.getByLabel('Never exposed to ambient air').check();
 	await expect(lab).toHaveURL(/neverAmbient=true/);
 	const rows = lab.getByTestId('offer-row');
