@@ -19,7 +19,11 @@ interface Snapshot {
 	rows: OfferRow[];
 	byCollection: Map<string, OfferRow[]>;
 	sorted: Map<string, OfferRow[]>;
+	/** rows that pass a filter, in one order, by filter and sort: the last few asked for */
+	filtered: Map<string, OfferRow[]>;
 }
+
+const FILTERS_KEPT = 32;
 
 let kept: Snapshot | null = null;
 let building: { key: string; promise: Promise<Snapshot> } | null = null;
@@ -108,7 +112,7 @@ async function build(sq: Sequelize, key: string): Promise<Snapshot> {
 		if (list) list.push(r);
 		else byCollection.set(r.collection, [r]);
 	}
-	return { key, collections, rows, byCollection, sorted: new Map() };
+	return { key, collections, rows, byCollection, sorted: new Map(), filtered: new Map() };
 }
 
 /** The offer as of now: computed once per change of what it depends on, and kept in memory. */
@@ -200,6 +204,21 @@ function sortedRows(s: Snapshot, sort: OfferSort): OfferRow[] {
 	return rows;
 }
 
+/** The rows that pass the query's filters, ascending in its sort; kept for the next pages and the next clients. */
+function filteredRows(s: Snapshot, q: OfferQuery): OfferRow[] {
+	const k = JSON.stringify([q.sort, q.collection ?? null, q.constraints]);
+	let rows = s.filtered.get(k);
+	if (rows) {
+		s.filtered.delete(k);
+		s.filtered.set(k, rows);
+		return rows;
+	}
+	rows = sortedRows(s, q.sort).filter((r) => matches(r, q));
+	s.filtered.set(k, rows);
+	if (s.filtered.size > FILTERS_KEPT) s.filtered.delete(s.filtered.keys().next().value!);
+	return rows;
+}
+
 /** An offer filter: the request's constraints without the collection's rules (the offer shows rule flags, the planner refuses them). */
 function matches(r: OfferRow, q: OfferQuery): boolean {
 	if (q.collection && r.collection !== q.collection) return false;
@@ -231,13 +250,13 @@ export async function getOffer(sq: Sequelize, q: OfferQuery) {
 	if (q.collection && !s.collections.some((c) => c.prefix === q.collection)) {
 		throw new ApiProblem(400, 'invalid_query', `Invalid query: collection: there is no collection ${q.collection}.`, { collection: 'no such collection' });
 	}
-	const rows = sortedRows(s, q.sort);
+	const rows = filteredRows(s, q);
 	const asc = q.dir === 'asc';
 	const key = (r: OfferRow): Key => [sortValue(r, q.sort), r.code];
+	// rows are ascending by (value, code); a descending page walks them from the end
 	let start = asc ? 0 : rows.length - 1;
 	if (q.cursor) {
 		const after = decodeCursor(q.cursor, q.sort);
-		// binary search for the first row past the cursor in the walking direction
 		let lo = 0;
 		let hi = rows.length;
 		while (lo < hi) {
@@ -245,21 +264,14 @@ export async function getOffer(sq: Sequelize, q: OfferQuery) {
 			if (cmp(key(rows[mid]), after) <= 0) lo = mid + 1;
 			else hi = mid;
 		}
+		// lo: the first row after the cursor; descending, the last row before it
 		start = asc ? lo : lo - 1;
 		while (!asc && start >= 0 && cmp(key(rows[start]), after) >= 0) start--;
 	}
 	const page: OfferRow[] = [];
-	let more = false;
-	for (let i = start; asc ? i < rows.length : i >= 0; i += asc ? 1 : -1) {
-		if (!matches(rows[i], q)) continue;
-		if (page.length === q.limit) {
-			more = true;
-			break;
-		}
-		page.push(rows[i]);
-	}
-	let matched = 0;
-	for (const r of s.rows) if (matches(r, q)) matched++;
+	for (let i = start; page.length < q.limit && (asc ? i < rows.length : i >= 0); i += asc ? 1 : -1) page.push(rows[i]);
+	const more = asc ? start + page.length < rows.length : start - page.length >= 0;
+	const matched = rows.length;
 	const last = page[page.length - 1];
 	const next = more && last ? Buffer.from(JSON.stringify(key(last))).toString('base64url') : null;
 	const docs = page.length
