@@ -21,6 +21,8 @@ interface Snapshot {
 	sorted: Map<string, OfferRow[]>;
 	/** rows that pass a filter, in one order, by filter and sort: the last few asked for */
 	filtered: Map<string, OfferRow[]>;
+	/** the documents a lab may see, by item id: the facility's photos and chromatograms */
+	documents: Map<string, { id: string; name: string; kind: string }[]>;
 }
 
 const FILTERS_KEPT = 32;
@@ -46,14 +48,15 @@ interface ItemRow {
 /**
  * What the offer depends on, as one short row per collection: the collection's lineage_version
  * (bumped by the database with every change to its items, migration 0051), its rules' last change,
- * and the number of handling sessions and blank analyses (both tables are append-only, so a new
- * count is a new record). While the key is the same, so is the offer.
+ * the number of handling sessions and blank analyses (both tables are append-only, so a new
+ * count is a new record), and the items' documents. While the key is the same, so is the offer.
  */
 async function snapshotKey(sq: Sequelize): Promise<string> {
 	const rows = await sq.query<{ k: string }>(
 		`SELECT c.id || ':' || c.lineage_version || ':' || c.updated_at::text || ':' ||
 		        (SELECT count(*) FROM handling_sessions s WHERE s.collection_id = c.id) AS k FROM collections c
 		 UNION ALL SELECT 'analyses:' || count(*) FROM blank_analyses
+		 UNION ALL SELECT 'documents:' || count(*) || ':' || coalesce(max(uploaded_at)::text, '') FROM documents WHERE subject_type = 'item'
 		 UNION ALL SELECT 'labs:' || count(*) FROM labs`,
 		{ type: QueryTypes.SELECT }
 	);
@@ -112,7 +115,17 @@ async function build(sq: Sequelize, key: string): Promise<Snapshot> {
 		if (list) list.push(r);
 		else byCollection.set(r.collection, [r]);
 	}
-	return { key, collections, rows, byCollection, sorted: new Map(), filtered: new Map() };
+	const docs = await sq.query<{ subject_id: string; id: string; original_name: string; kind: string }>(
+		`SELECT subject_id, id, original_name, kind FROM documents WHERE subject_type = 'item' AND lab_id IS NULL AND kind IN ('photo', 'chromatogram', 'other') ORDER BY uploaded_at`,
+		{ type: QueryTypes.SELECT }
+	);
+	const documents = new Map<string, { id: string; name: string; kind: string }[]>();
+	for (const d of docs) {
+		const list = documents.get(d.subject_id) ?? [];
+		list.push({ id: d.id, name: d.original_name, kind: d.kind });
+		documents.set(d.subject_id, list);
+	}
+	return { key, collections, rows, byCollection, sorted: new Map(), filtered: new Map(), documents };
 }
 
 /** The offer as of now: computed once per change of what it depends on, and kept in memory. */
@@ -274,19 +287,12 @@ export async function getOffer(sq: Sequelize, q: OfferQuery) {
 	const matched = rows.length;
 	const last = page[page.length - 1];
 	const next = more && last ? Buffer.from(JSON.stringify(key(last))).toString('base64url') : null;
-	const docs = page.length
-		? await sq.query<{ subject_id: string; id: string; original_name: string; kind: string }>(
-				`SELECT subject_id, id, original_name, kind FROM documents WHERE subject_type = 'item' AND lab_id IS NULL AND kind IN ('photo', 'chromatogram', 'other')
-				 AND subject_id IN (:ids) ORDER BY uploaded_at`,
-				{ type: QueryTypes.SELECT, replacements: { ids: page.map((r) => r.id) } }
-			)
-		: [];
 	return {
 		collections: s.collections.map((c) => ({
 			code: c.prefix, name: c.name, allocatableUg: c.allocatableUg, reserveUg: c.reserveUg, pristineUg: c.pristineUg, earmarkedUg: c.earmarkedUg,
 			rules: c.rules
 		})),
-		items: page.map((r): OfferItemView => ({ ...publicRow(r), documents: docs.filter((d) => d.subject_id === r.id).map((d) => ({ id: d.id, name: d.original_name, kind: d.kind })) })),
+		items: page.map((r): OfferItemView => ({ ...publicRow(r), documents: s.documents.get(r.id) ?? [] })),
 		matched,
 		next
 	};
