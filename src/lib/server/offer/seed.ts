@@ -17,8 +17,8 @@ const why = (what: string) => `${what}; the piece size is the smallest that keep
  * Requests in review that show the allocation planner's cases (DESIGN §3.11), made through the
  * app's own services:
  * - a simple single split (HLF, one piece, no constraints);
- * - one that only a deeper aliquot can serve: HLF fragment F1 is split twice, then F1, its first
- *   aliquot and fragment F2 are photographed on the open bench (ambient air, within HLF's limit);
+ * - one that only a deeper aliquot can serve: HLF fragment F2 is split twice, then F2, its first
+ *   aliquot and fragment F1 are photographed on the open bench (ambient air, within HLF's limit);
  *   the grand-aliquots were split off before, and every other HLF piece met cleanroom air, so a
  *   request for glovebox-only material never exposed to ambient air is served by those alone;
  * - one with no possible plan: two pieces larger than those grand-aliquots under the same constraints;
@@ -32,18 +32,18 @@ export async function seedPlannerDemo(sq: Sequelize, curator: SessionUser, fenni
 	const [mb] = await sq.query<{ id: string }>(`SELECT id FROM balances WHERE active AND calibration_due >= current_date ORDER BY readability_ug DESC LIMIT 1`, { type: QueryTypes.SELECT });
 	const f1 = await hlf(1);
 	const f2 = await hlf(2);
-	const [{ mass_ug: f1Mass }] = await sq.query<{ mass_ug: number }>('SELECT mass_ug FROM items WHERE code = :c', { type: QueryTypes.SELECT, replacements: { c: f1 } });
-	const chip = await splitItem(sq, who, f1, { children: [{ massUg: 1_200_000, container: 'PTFE jar', description: 'Chip of fragment F1 for the glovebox store' }], ...(mb ? { balanceId: mb.id, parentAfterUg: Number(f1Mass) - 1_200_000 - 60 } : {}) });
+	const [{ mass_ug: f2Mass }] = await sq.query<{ mass_ug: number }>('SELECT mass_ug FROM items WHERE code = :c', { type: QueryTypes.SELECT, replacements: { c: f2 } });
+	const chip = await splitItem(sq, who, f2, { children: [{ massUg: 1_200_000, container: 'PTFE jar', description: 'Chip of fragment F2 for the glovebox store' }], ...(mb ? { balanceId: mb.id, parentAfterUg: Number(f2Mass) - 1_200_000 - 60 } : {}) });
 	const chipCode = chip.children[0].code as string;
 	await splitItem(sq, who, chipCode, {
-		children: [30_000, 28_000].map((massUg) => ({ massUg, container: 'PTFE vial, crimp-sealed', description: 'Powder from the F1 chip, sealed in the nitrogen glovebox' })),
+		children: [30_000, 28_000].map((massUg) => ({ massUg, container: 'PTFE vial, crimp-sealed', description: 'Powder from the F2 chip, sealed in the nitrogen glovebox' })),
 		...(mb ? { balanceId: mb.id, parentAfterUg: 1_200_000 - 58_000 - 20 } : {})
 	});
 	// after those splits: a short bench session in ambient air (HLF allows up to 240 min)
 	const start = new Date(Date.now() + 1_000);
 	await recordSession(sq, who, {
 		items: [f1, chipCode, f2], atmosphere: 'ambient_air', start: start.toISOString(), end: new Date(start.getTime() + 8 * 60_000).toISOString(),
-		temperatureC: 21.8, humidityPct: 39, purpose: 'Photography of fragments F1 and F2 and the F1 chip on the open bench',
+		temperatureC: 21.8, humidityPct: 39, purpose: 'Photography of fragments F1 and F2 and the F2 chip on the open bench',
 		notes: 'Within the collection’s ambient-air limit; the sealed powders stayed in the glovebox'
 	});
 
