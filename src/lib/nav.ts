@@ -10,6 +10,7 @@ const L = {
 	collections: { href: '/collections', label: 'Collections' },
 	items: { href: '/items', label: 'Items' },
 	handling: { href: '/handling', label: 'Handling' },
+	offer: { href: '/offer', label: 'On offer' },
 	requests: { href: '/requests', label: 'Requests' },
 	transfers: { href: '/transfers', label: 'Transfers' },
 	reports: { href: '/reports', label: 'Blank reports' },
@@ -26,12 +27,12 @@ export function navFor(role: Role | null): NavItem[] {
 		case null:
 			return [{ href: '/', label: 'Overview' }];
 		case 'curator':
-			return [L.work, L.collections, L.items, L.handling, L.requests, L.transfers, L.reports, L.balances, L.scan, L.account];
+			return [L.work, L.collections, L.items, L.offer, L.handling, L.requests, L.transfers, L.reports, L.balances, L.scan, L.account];
 		case 'lab_member':
-			return [L.work, L.requests, L.transfers, { href: '/items', label: 'Our material' }, L.reports, L.scan, L.account];
+			return [L.work, L.offer, L.requests, L.transfers, { href: '/items', label: 'Our material' }, L.reports, L.scan, L.account];
 		case 'auditor':
-			return [{ href: '/', label: 'Overview' }, L.collections, L.items, L.handling, L.requests, L.transfers, L.reports, L.trail, L.scan, L.account];
+			return [{ href: '/', label: 'Overview' }, L.collections, L.items, L.offer, L.handling, L.requests, L.transfers, L.reports, L.trail, L.scan, L.account];
 		case 'admin':
-			return [L.work, L.collections, L.items, L.handling, L.requests, L.transfers, L.reports, L.balances, L.trail, L.admin, L.account];
+			return [L.work, L.collections, L.items, L.offer, L.handling, L.requests, L.transfers, L.reports, L.balances, L.trail, L.admin, L.account];
 	}
 }

@@ -201,6 +201,9 @@ const MATRIX: Record<string, Record<string, Case>> = {
 	'/api/requests/[id]/grant': { POST: { path: `/api/requests/${SOME_UUID}/grant`, body: {}, expect: only(['admin', 'curator'], 401) } },
 	'/api/requests/[id]/decline': { POST: { path: `/api/requests/${SOME_UUID}/decline`, body: {}, expect: only(['admin', 'curator'], 401) } },
 	'/api/requests/[id]/earmark': { POST: { path: `/api/requests/${SOME_UUID}/earmark`, body: {}, expect: only(['admin', 'curator'], 401) } },
+	'/api/requests/[id]/plans': { GET: { path: `/api/requests/${SOME_UUID}/plans`, expect: only(['admin', 'curator'], 401) } },
+	'/offer': { GET: { path: '/offer', expect: only(['admin', 'curator', 'lab', 'auditor'], 303) } },
+	'/api/offer': { GET: { path: '/api/offer', expect: only(['admin', 'curator', 'lab', 'auditor'], 401) } },
 	'/api/requests/[id]/usage': { POST: { path: `/api/requests/${SOME_UUID}/usage`, body: {}, expect: only(['lab'], 401) } },
 	'/api/transfers': {
 		GET: { path: '/api/transfers', expect: all(200, 401) },

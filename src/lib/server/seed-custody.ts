@@ -6,6 +6,7 @@ import { cancelTransfer, prepareTransfer, signTransfer } from './custody/transfe
 import { submitUsage } from './custody/usage';
 import { splitItem } from './registry/split';
 import { whoFrom } from './registry/common';
+import { seedPlannerDemo } from './offer/seed';
 
 async function demoUser(sq: Sequelize, email: string): Promise<SessionUser | null> {
 	const [u] = await sq.query<{ id: string; email: string; name: string; role: Role; lab_id: string | null; lab_name: string | null }>(
@@ -101,5 +102,6 @@ export async function seedCustody(sq: Sequelize, log: (s: string) => void = () =
 	const cancelled = await ask(fennick, 'HLF', 1_000, 'Chiral LC of hydroxy acids');
 	await grantRequest(sq, admin, cancelled, { grantedUg: 1_000 });
 	await cancelTransfer(sq, curator, await ship(cancelled, 'HLF', 1_000, ''));
+	await seedPlannerDemo(sq, curator, fennick, marrow);
 	log('demo requests and transfers present');
 }

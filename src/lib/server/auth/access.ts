@@ -73,6 +73,10 @@ export const ACCESS: Record<string, Rule> = {
 	'/api/requests/[id]/grant': { POST: CURATORS },
 	'/api/requests/[id]/decline': { POST: CURATORS },
 	'/api/requests/[id]/earmark': { POST: CURATORS },
+	'/api/requests/[id]/plans': { GET: CURATORS },
+	// material on offer: everyone who may ask for material, and the staff who review it
+	'/offer': { GET: ['lab_member', 'curator', 'admin', 'auditor'] },
+	'/api/offer': { GET: ['lab_member', 'curator', 'admin', 'auditor'] },
 	'/api/requests/[id]/usage': { POST: ['lab_member'] },
 	'/api/transfers': { GET: 'signed-in', POST: ['curator', 'admin', 'lab_member'] },
 	'/api/transfers/[id]': { GET: 'signed-in' },

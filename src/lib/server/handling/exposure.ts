@@ -8,6 +8,30 @@ import { SESSION_SELECT, sessionView, type CollectionRow, type SessionRow } from
 // Exposure reports of items (DESIGN.md §3.5–3.6): the sessions along each item's lineage read from
 // the database, the computation itself in domain/exposure.ts.
 
+/** A session as domain/exposure.ts takes it: items and blanks by code. */
+function exposureInput(s: SessionRow): HandlingSessionInput {
+	return {
+		id: s.id,
+		atmosphere: s.atmosphere,
+		start: s.started_at,
+		end: s.ended_at,
+		itemIds: s.items.map((i) => i.code),
+		blanks: s.blanks.map((b) => ({ blankId: b.code, analysed: b.analysed }))
+	};
+}
+
+/**
+ * Every handling session of one collection as exposure() takes it, with the collection's rules,
+ * for computing many items' exposure at once (the offer, the planner).
+ */
+export async function collectionExposureInputs(sq: Sequelize, collectionId: string) {
+	const sessions = await sq.query<SessionRow>(`${SESSION_SELECT} WHERE s.collection_id = :id ORDER BY s.started_at`, { type: QueryTypes.SELECT, replacements: { id: collectionId } });
+	const [col] = await sq.query<CollectionRow>('SELECT id, prefix, allowed_atmospheres, allowed_contact_materials, max_air_exposure_min FROM collections WHERE id = :id', {
+		type: QueryTypes.SELECT, replacements: { id: collectionId }
+	});
+	return { sessions: sessions.map(exposureInput), rules: rulesOf(col.allowed_atmospheres, col.max_air_exposure_min) };
+}
+
 interface PathRow {
 	item_id: string;
 	start_id: string;
@@ -41,14 +65,7 @@ async function exposures(sq: Sequelize, ids: string[], collectionId: string) {
 		type: QueryTypes.SELECT, replacements: { id: collectionId }
 	});
 	const rules = rulesOf(col.allowed_atmospheres, col.max_air_exposure_min);
-	const inputs: HandlingSessionInput[] = sessions.map((s) => ({
-		id: s.id,
-		atmosphere: s.atmosphere,
-		start: s.started_at,
-		end: s.ended_at,
-		itemIds: s.items.map((i) => i.code),
-		blanks: s.blanks.map((b) => ({ blankId: b.code, analysed: b.analysed }))
-	}));
+	const inputs: HandlingSessionInput[] = sessions.map(exposureInput);
 	const out = new Map<string, ReturnType<typeof exposure>>();
 	for (const id of ids) {
 		const path = paths.filter((p) => p.start_id === id);

@@ -3,9 +3,34 @@ import { models } from '$lib/server/models';
 import { createRequest, requestInput } from '$lib/server/custody/requests';
 import { collectionChoices, isFailure, mgField } from '$lib/server/custody/forms';
 import { formAction, formValues, parseForm } from '$lib/server/forms';
+import { offerQuery } from '$lib/server/offer/offer';
+import type { OfferConstraints } from '$lib/domain/offer';
 import type { Actions, PageServerLoad } from './$types';
 
-export const load: PageServerLoad = async () => ({ collections: await collectionChoices() });
+/**
+ * The form, pre-filled from the offer ("Ask for this"): the collection, the items picked and the
+ * offer's filters, which the request keeps as its constraints. Filters that do not read are left out
+ * and said so.
+ */
+export const load: PageServerLoad = async ({ url }) => {
+	const p = Object.fromEntries([...url.searchParams].filter(([k]) => k !== 'items'));
+	const parsed = offerQuery.safeParse(p);
+	const itemCodes = (url.searchParams.get('items') ?? '').split(',').map((s) => s.trim().toUpperCase()).filter(Boolean).slice(0, 20);
+	const constraints: OfferConstraints = parsed.success ? parsed.data.constraints : {};
+	return {
+		collections: await collectionChoices(),
+		prefill: { collection: parsed.success ? (parsed.data.collection ?? '') : '', constraints, itemCodes, ignored: !parsed.success && Object.keys(p).length > 0 }
+	};
+};
+
+function readJson(text: string | undefined): unknown {
+	if (!text) return {};
+	try {
+		return JSON.parse(text);
+	} catch {
+		return text;
+	}
+}
 
 export const actions: Actions = {
 	default: async ({ request, locals }) => {
@@ -19,6 +44,9 @@ export const actions: Actions = {
 			{
 				collection: values.collection ?? '',
 				massUg: mass,
+				pieces: values.pieces ? Number(values.pieces) : 1,
+				constraints: readJson(values.constraints),
+				itemCodes: (values.itemCodes ?? '').split(',').map((s) => s.trim()).filter(Boolean),
 				analysisPlan: values.analysisPlan ?? '',
 				techniques: (values.techniques ?? '').split(',').map((s) => s.trim()).filter(Boolean),
 				destructive: values.destructive === 'yes',
