@@ -56,6 +56,6 @@ export async function seedPlannerDemo(sq: Sequelize, curator: SessionUser, fenni
 	const simple = await ask(marrow, 'HLF', 2_500, 'Nitrogen isotopes of the insoluble organic matter');
 	const deep = await ask(fennick, 'HLF', 5_000, 'Amino acids of matrix never exposed to laboratory air', { constraints: glovebox });
 	const none = await ask(fennick, 'HLF', 300_000, 'Bulk soluble organics of glovebox-only matrix, two replicate extractions', { pieces: 2, constraints: glovebox });
-	const two = await ask(fennick, 'TRN', 2_000, 'Duplicate enantiomer measurements of chamber B fines', { pieces: 2, constraints: { neverAmbient: true } });
+	const two = await ask(fennick, 'TRN', 2_000, 'Duplicate enantiomer measurements of cell 2 fines', { pieces: 2, constraints: { neverAmbient: true } });
 	for (const id of [simple, deep, none, two]) await startReview(sq, curator, id);
 }
