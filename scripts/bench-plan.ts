@@ -8,12 +8,12 @@
 //   the first offer after a change, when the offer is computed afresh.
 // REGOLOG_BENCH_SECONDS sets each autocannon run's length (default 10 s); BENCH_PLAN_RUNS the number
 // of plan requests (default 100). Needs the production build (`npx vite build`).
-import autocannon from 'autocannon';
 import { quantileSorted } from 'simple-statistics';
 import { generateLoad, LOAD_PREFIX } from './gen-load';
 import { startApp, stopApp } from './lib/app-process';
 import { profile } from './lib/profile.mjs';
 import { stopCluster } from './lib/pg.mjs';
+import { underLoad, type Measure } from './lib/under-load';
 
 const SECONDS = Number(process.env.REGOLOG_BENCH_SECONDS ?? 10);
 const RUNS = Number(process.env.BENCH_PLAN_RUNS ?? 100);
@@ -24,16 +24,6 @@ const PASSWORD = process.env.REGOLOG_DEMO_PASSWORD || 'brightwater-demo';
 const log = (s: string) => console.log(`[bench:plan] ${s}`);
 const port = profile('test').portBase + 8;
 
-interface Measure { p50: number; p95: number; rps: number; errors: number; non2xx: number }
-
-async function underLoad(url: string, cookie: string): Promise<Measure> {
-	const times: number[] = [];
-	const inst = autocannon({ url, connections: CONNECTIONS, duration: SECONDS, headers: { cookie } });
-	inst.on('response', (_c: unknown, _status: number, _bytes: number, ms: number) => times.push(ms));
-	const r = await inst;
-	times.sort((a, b) => a - b);
-	return { p50: quantileSorted(times, 0.5), p95: quantileSorted(times, 0.95), rps: r.requests.average, errors: r.errors, non2xx: r.non2xx };
-}
 
 async function oneAtATime(url: string, cookie: string, runs: number) {
 	const times: number[] = [];
@@ -118,7 +108,7 @@ let cold = 0;
 			['offer data (/api/offer)', '/api/offer?limit=50', lab]
 		];
 		for (const [name, path, cookie] of targets) {
-			pages[name] = await underLoad(app.base + path, cookie);
+			pages[name] = await underLoad(app.base + path, cookie, { connections: CONNECTIONS, seconds: SECONDS });
 			log(`  ${name}: ${fmt(pages[name])}, ${pages[name].rps.toFixed(0)} req/s, ${pages[name].non2xx} non-2xx, ${pages[name].errors} errors`);
 			if (pages[name].non2xx || pages[name].errors) fail = true;
 		}
