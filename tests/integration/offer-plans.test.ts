@@ -65,7 +65,7 @@ describe('material on offer', () => {
 
 	it('answers bad filters with the field that is wrong, and changes nothing', async () => {
 		const lab = await signedIn(DEMO.fennick);
-		for (const [q, field] of [['minCoverage=2', 'minCoverage'], ['maxMinutes.ambient_air=soon', 'maxMinutes.ambient_air'], ['sort=colour', 'sort'], ['cursor=zzz', 'cursor'], ['collection=NOPE', 'collection'], ['neverAmbient=perhaps', 'neverAmbient']]) {
+		for (const [q, field] of [['minCoverage=2', 'minCoverage'], ['maxMinutes.ambient_air=soon', 'maxMinutes.ambient_air'], ['sort=colour', 'sort'], ['cursor=zzz', 'cursor'], ['collection=NOPE', 'collection'], ['neverAmbient=perhaps', 'neverAmbient'], ['maxMinutes.plasma=3', 'maxMinutes.plasma']]) {
 			const r = await lab.get(`/api/offer?${q}`);
 			expect(r.status, q).toBe(400);
 			expect(r.body.error.code).toBe('invalid_query');

@@ -81,7 +81,7 @@ describe('checkpoints, keys, incremental verification and bundles over HTTP', ()
 		expect(none.body.error).toMatchObject({ code: 'no_checkpoint', fields: { from: expect.any(String) } });
 		const bad = await auditor.get('/api/trail/verify?from=yesterday');
 		expect(bad.status).toBe(400);
-		expect(bad.body.error).toMatchObject({ code: 'invalid_query', fields: { from: expect.any(String) } });
+		expect(bad.body.error).toMatchObject({ code: 'invalid_query', fields: { from: 'must be the seq of a signed checkpoint, or latest' } });
 		const backwards = await auditor.get('/api/trail/export?from=5&to=2');
 		expect(backwards.status).toBe(400);
 		expect(backwards.body.error.fields).toEqual({ to: 'must not be before from' });

@@ -25,10 +25,17 @@ export function errorResponse(status: number, code: string, message: string, fie
 	return problemResponse(new ApiProblem(status, code, message, fields));
 }
 
-/** Turns zod issues into one message per field path ("children.2.massUg"). */
-export function zodFields(issues: { path: PropertyKey[]; message: string }[]): Record<string, string> {
+/**
+ * Turns zod issues into one message per field path ("children.2.massUg"); a key that is not part of
+ * the input is named itself ("maxMinutes.plasma: is not a known field").
+ */
+export function zodFields(issues: { path: PropertyKey[]; message: string; code?: string; keys?: string[] }[]): Record<string, string> {
 	const fields: Record<string, string> = {};
 	for (const i of issues) {
+		if (i.code === 'unrecognized_keys' && i.keys?.length) {
+			for (const k of i.keys) fields[[...i.path.map(String), k].join('.')] ??= 'is not a known field';
+			continue;
+		}
 		const key = i.path.map(String).join('.') || '(body)';
 		if (!fields[key]) fields[key] = i.message;
 	}

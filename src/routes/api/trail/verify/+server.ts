@@ -7,7 +7,7 @@ import type { RequestHandler } from './$types';
 
 const query = z.strictObject({
 	from: z
-		.union([z.literal('latest'), z.coerce.number({ error: 'must be the seq of a signed checkpoint, or latest' }).int().min(1, 'must be the seq of a signed checkpoint')])
+		.union([z.literal('latest'), z.coerce.number().int().min(1)], { error: 'must be the seq of a signed checkpoint, or latest' })
 		.optional()
 });
 
