@@ -102,8 +102,20 @@ const BY_ITSELF: Record<string, string[]> = {
 };
 
 /**
+ * Tables only the background jobs write, on their own schedule (src/lib/server/jobs.ts): the jobs'
+ * own bookkeeping and the trail's signed checkpoints of its head. Left out of snapshots.
+ */
+const WRITTEN_BY_JOBS = ['job_runs', 'trail_checkpoints'];
+
+/** Messages the background jobs queue on their own schedule (checkpoints to the witnesses, reminders). */
+const QUEUED_BY_JOBS: Record<string, (row: Record<string, unknown>) => boolean> = {
+	mail_outbox: (r) => r.kind === 'trail_checkpoint' || r.kind === 'usage.overdue'
+};
+
+/**
  * Every row of every table in the public schema, as sorted JSON, for before/after comparisons
- * (without the columns that change by themselves, BY_ITSELF).
+ * (without the columns that change by themselves, BY_ITSELF, the tables only background jobs
+ * write, WRITTEN_BY_JOBS, and the messages they queue, QUEUED_BY_JOBS).
  */
 export async function snapshot(sequelize: Sequelize, except: string[] = ['schema_migrations']) {
 	const [tables] = (await sequelize.query(
@@ -111,10 +123,11 @@ export async function snapshot(sequelize: Sequelize, except: string[] = ['schema
 	)) as [{ tablename: string }[], unknown];
 	const out: Record<string, string[]> = {};
 	for (const { tablename } of tables) {
-		if (except.includes(tablename)) continue;
+		if (except.includes(tablename) || WRITTEN_BY_JOBS.includes(tablename)) continue;
 		const [all] = await sequelize.query(`SELECT * FROM "${tablename}"`);
 		const skip = BY_ITSELF[tablename] ?? [];
-		const rows = (all as Record<string, unknown>[]).map((r) => Object.fromEntries(Object.entries(r).filter(([k]) => !skip.includes(k))));
+		const byJobs = QUEUED_BY_JOBS[tablename];
+		const rows = (all as Record<string, unknown>[]).filter((r) => !byJobs?.(r)).map((r) => Object.fromEntries(Object.entries(r).filter(([k]) => !skip.includes(k))));
 		out[tablename] = (rows as object[]).map((r) => JSON.stringify(r)).sort();
 	}
 	return out;
