@@ -40,7 +40,10 @@ const HOSTILE_SEGMENTS = [
 	'x'.repeat(3000)
 ];
 
-const QUERY_KEYS = ['q', 'collection', 'state', 'holder', 'kind', 'sort', 'dir', 'after', 'limit', 'depth', 'format', 'offsetX', 'offsetY', 'role', 'lab', 'active', 'from', 'to'];
+// Names that every plain object already inherits: a route must treat them as the input's own words.
+const PROTO_KEYS = ['__proto__', 'constructor', 'valueOf', 'toString', 'hasOwnProperty', 'isPrototypeOf'];
+
+const QUERY_KEYS = [...PROTO_KEYS, 'q', 'collection', 'state', 'holder', 'kind', 'sort', 'dir', 'after', 'limit', 'depth', 'format', 'offsetX', 'offsetY', 'role', 'lab', 'active', 'from', 'to'];
 
 const hostileString = fc.oneof(
 	fc.constantFrom(...HOSTILE_SEGMENTS),
@@ -61,7 +64,7 @@ const queryString = fc
 	});
 
 // Known field names of the JSON bodies mixed with arbitrary ones, so validation is reached beyond its first check.
-const BODY_KEYS = ['children', 'massUg', 'collection', 'description', 'name', 'codes', 'format', 'balanceId', 'parentAfterUg', 'reason', 'role', 'labId', 'active', 'readabilityUg', 'repeatabilityUg', 'calibrationDue', 'reserveFraction', 'items', 'requestId', 'meaning'];
+const BODY_KEYS = [...PROTO_KEYS, 'children', 'massUg', 'collection', 'description', 'name', 'codes', 'format', 'balanceId', 'parentAfterUg', 'reason', 'role', 'labId', 'active', 'readabilityUg', 'repeatabilityUg', 'calibrationDue', 'reserveFraction', 'items', 'requestId', 'meaning'];
 const anyBody = fc.oneof(
 	fc.jsonValue({ maxDepth: 3 }),
 	fc.dictionary(fc.constantFrom(...BODY_KEYS), fc.oneof(fc.jsonValue({ maxDepth: 2 }), hostileString, fc.integer(), fc.double()), { maxKeys: 5 }),
@@ -171,6 +174,24 @@ describe('hostile input on every JSON route', () => {
 			}
 		}
 	}
+
+	it('every route takes the names a plain object inherits as unknown input, in the query and in the body', async () => {
+		const query = '?' + PROTO_KEYS.map((k) => `${k}=`).join('&');
+		const body = { text: `{${PROTO_KEYS.map((k) => `"${k}":"x"`).join(',')}}`, type: 'application/json' };
+		for (const route of routes) {
+			for (const method of route.methods) {
+				const path = fillPath(route.id, ['TRN-00001/Y']) + query;
+				const r = await send(clients.curator, method, path, method === 'GET' || method === 'DELETE' ? undefined : body);
+				requests++;
+				checkAnswer(`curator ${method} ${path}`, r.status, r.text, r.type);
+				if (route.id.endsWith('/sign-out') && r.status === 200) clients.curator = await signedIn(roles.curator);
+			}
+		}
+		// A strict query refuses them by name (this route takes only known keys).
+		const items = await send(clients.curator, 'GET', '/api/items?valueOf=1');
+		expect(items.status).toBe(400);
+		expect(JSON.parse(items.text).error.fields).toEqual({ valueOf: 'is not a known field' });
+	});
 
 	it('bad input changed nothing a user can see', async () => {
 		const after = await snapshot(sequelize, VOLATILE);

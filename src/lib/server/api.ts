@@ -30,16 +30,26 @@ export function errorResponse(status: number, code: string, message: string, fie
  * the input is named itself ("maxMinutes.plasma: is not a known field").
  */
 export function zodFields(issues: { path: PropertyKey[]; message: string; code?: string; keys?: string[] }[]): Record<string, string> {
-	const fields: Record<string, string> = {};
+	// A Map, not an object: a key such as "valueOf" or "__proto__" is the input's own word, never
+	// something the object already inherits.
+	const fields = new Map<string, string>();
+	const put = (key: string, message: string) => {
+		if (!fields.has(key)) fields.set(key, message);
+	};
 	for (const i of issues) {
 		if (i.code === 'unrecognized_keys' && i.keys?.length) {
-			for (const k of i.keys) fields[[...i.path.map(String), k].join('.')] ??= 'is not a known field';
+			for (const k of i.keys) put([...i.path.map(String), k].join('.'), 'is not a known field');
 			continue;
 		}
-		const key = i.path.map(String).join('.') || '(body)';
-		if (!fields[key]) fields[key] = i.message;
+		put(i.path.map(String).join('.') || '(body)', i.message);
 	}
-	return fields;
+	return Object.fromEntries(fields);
+}
+
+/** The first field's message, for the one-line summary of a 4xx answer. */
+function firstField(fields: Record<string, string>): string {
+	const first = Object.entries(fields)[0];
+	return first ? `${first[0]}: ${first[1]}` : 'the input does not match what this route takes';
 }
 
 const MAX_JSON_BYTES = 1_000_000;
@@ -61,21 +71,19 @@ export async function readJson<T>(event: RequestEvent, schema: ZodType<T>): Prom
 	const r = schema.safeParse(raw);
 	if (!r.success) {
 		const fields = zodFields(r.error.issues);
-		const first = Object.entries(fields)[0];
-		throw new ApiProblem(422, 'invalid_input', `Invalid input: ${first[0]}: ${first[1]}`, fields);
+		throw new ApiProblem(422, 'invalid_input', `Invalid input: ${firstField(fields)}`, fields);
 	}
 	return r.data;
 }
 
 /** Validates query parameters with a zod schema of strings. */
 export function readQuery<T>(url: URL, schema: ZodType<T>): T {
-	const raw: Record<string, string> = {};
-	for (const [k, v] of url.searchParams) raw[k] = v;
+	// fromEntries makes every name an own key (the last of a repeated name wins), "__proto__" included.
+	const raw: Record<string, string> = Object.fromEntries(url.searchParams);
 	const r = schema.safeParse(raw);
 	if (!r.success) {
 		const fields = zodFields(r.error.issues);
-		const first = Object.entries(fields)[0];
-		throw new ApiProblem(400, 'invalid_query', `Invalid query: ${first[0]}: ${first[1]}`, fields);
+		throw new ApiProblem(400, 'invalid_query', `Invalid query: ${firstField(fields)}`, fields);
 	}
 	return r.data;
 }

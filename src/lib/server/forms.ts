@@ -6,9 +6,9 @@ export type FormFailure = { values: Record<string, string>; fields: Record<strin
 
 /** Form data as a plain object of strings (the last value of a repeated name wins). */
 export function formValues(data: FormData): Record<string, string> {
-	const out: Record<string, string> = {};
-	for (const [k, v] of data) if (typeof v === 'string') out[k] = v;
-	return out;
+	const entries: [string, string][] = [];
+	for (const [k, v] of data) if (typeof v === 'string') entries.push([k, v]);
+	return Object.fromEntries(entries);
 }
 
 /** Validates a form with zod; on failure returns SvelteKit's fail() with messages per field. */
