@@ -187,6 +187,20 @@ describe('hostile input on every JSON route', () => {
 				if (route.id.endsWith('/sign-out') && r.status === 200) clients.curator = await signedIn(roles.curator);
 			}
 		}
+		// ... and as values: of every known query key, of every path parameter, of every body field.
+		const asValues = PROTO_KEYS.map((v) => '?' + QUERY_KEYS.filter((k) => !PROTO_KEYS.includes(k)).map((k) => `${k}=${encodeURIComponent(v)}`).join('&'));
+		for (const [n, v] of PROTO_KEYS.entries()) {
+			const valueBody = { text: JSON.stringify(Object.fromEntries(BODY_KEYS.filter((k) => !PROTO_KEYS.includes(k)).map((k) => [k, v]))), type: 'application/json' };
+			for (const route of routes) {
+				for (const method of route.methods) {
+					const path = fillPath(route.id, [v]) + asValues[n];
+					const r = await send(clients.curator, method, path, method === 'GET' || method === 'DELETE' ? undefined : valueBody);
+					requests++;
+					checkAnswer(`curator ${method} ${path}`, r.status, r.text, r.type);
+					if (route.id.endsWith('/sign-out') && r.status === 200) clients.curator = await signedIn(roles.curator);
+				}
+			}
+		}
 		// A strict query refuses them by name (this route takes only known keys).
 		const items = await send(clients.curator, 'GET', '/api/items?valueOf=1');
 		expect(items.status).toBe(400);
