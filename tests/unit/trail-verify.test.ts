@@ -1,5 +1,5 @@
-import { describe, it, expect } from 'vitest';
-import { createPrivateKey, createPublicKey, generateKeyPairSync, sign } from 'node:crypto';
+import { describe, it, expect, afterAll } from 'vitest';
+import { createHash, createPrivateKey, createPublicKey, generateKeyPairSync, sign } from 'node:crypto';
 import canonicalize from 'canonicalize';
 import fc from 'fast-check';
 import {
@@ -18,12 +18,17 @@ import {
 } from '../../src/lib/domain/trail-verify';
 import { nodeTrailCrypto } from '../../src/lib/server/trail/node-crypto';
 import { webTrailCrypto } from '../../src/lib/trail/web-crypto';
+import { workerTrailCrypto } from '../../src/lib/server/trail/hash-worker';
 
 const enc = new TextEncoder();
 const hex = (s: string) => Uint8Array.from(Buffer.from(s, 'hex'));
+// the command line's provider: SHA-256 on a worker thread, given each message as two pieces of a buffer
+const onWorker = workerTrailCrypto();
+afterAll(() => onWorker.close());
 const CRYPTOS: [string, TrailCrypto][] = [
 	['node:crypto', nodeTrailCrypto],
-	['Web Crypto', webTrailCrypto]
+	['Web Crypto', webTrailCrypto],
+	['node:crypto on a worker thread', onWorker]
 ];
 
 describe('check vectors, through both crypto providers', () => {
@@ -229,5 +234,62 @@ describe('bundles', () => {
 		expect(r.reason).toMatch(/no longer leads to the head signed at checkpoint 30: rewritten after checkpoint 20/);
 		// without the checkpoints the rewrite would not show
 		expect(await verifyBundleBytes(bytes(bundle(rewritten, [])), nodeTrailCrypto)).toMatchObject({ ok: true });
+	});
+
+	/**
+	 * The first broken event as a plain reading finds it, one line at a time with every check in its
+	 * order (format, place, link, hash, own seq, checkpoint), for comparison with the verifier, which
+	 * reads and hashes in two passes.
+	 */
+	function firstBrokenPlainly(text: Uint8Array, valid: Map<number, string>): number | null {
+		const lines = Buffer.from(text).toString('latin1').split('\n');
+		const eventLine = /^\{"seq":(\d+),"prev":"([\s\S]{64})","hash":"([\s\S]{64})","event":([\s\S]+)\}$/;
+		let expect = 1;
+		let prev = GENESIS_HASH;
+		let lastGood = 0;
+		for (const l of lines) {
+			if (!l.startsWith('{"seq":')) continue;
+			const m = eventLine.exec(l);
+			if (!m || Number(m[1]) !== expect || m[2] !== prev) return expect;
+			if (createHash('sha256').update(Buffer.from(m[2] + m[4], 'latin1')).digest('hex') !== m[3]) return expect;
+			const own = m[4].lastIndexOf(',"seq":');
+			if (own < 0 || !new RegExp(`^${expect},`).test(m[4].slice(own + 7))) return expect;
+			const cp = valid.get(expect);
+			if (cp !== undefined) {
+				if (cp !== m[3]) return lastGood + 1;
+				lastGood = expect;
+			}
+			prev = m[3];
+			expect++;
+		}
+		return expect === 41 ? null : expect;
+	}
+
+	it('names the same first broken event as a plain reading, for any changed byte, chunk size and batch, with every provider', async () => {
+		const intact = bytes(lines);
+		const valid = new Map(cps.map((c) => [c.seq, c.hash]));
+		const eventsFrom = Buffer.from(intact).indexOf('{"seq":1,');
+		const eventsTo = Buffer.from(intact).indexOf('{"type":"end"');
+		let broken = 0;
+		await fc.assert(
+			fc.asyncProperty(fc.integer({ min: eventsFrom, max: eventsTo - 1 }), fc.integer({ min: 0, max: 255 }), fc.integer({ min: 1, max: 3000 }), fc.integer({ min: 1, max: 50 }), async (at, byte, size, batch) => {
+				const changed = intact.slice();
+				if (changed[at] === 10 || byte === 10 || byte === changed[at]) return;
+				changed[at] = byte;
+				const want = firstBrokenPlainly(changed, valid);
+				if (want !== null) broken++;
+				for (const [name, c] of CRYPTOS) {
+					const v = new BundleVerifier(c, { batch });
+					for (let i = 0; i < changed.length; i += size) await v.push(changed.subarray(i, i + size));
+					const r = await v.end();
+					expect(r.firstBrokenAt, `${name}: byte ${at} set to ${byte}, chunks of ${size}, batches of ${batch}: ${r.reason}`).toBe(want);
+					expect(r.ok).toBe(want === null);
+					if (want !== null) expect(r.events).toBe(want - 1);
+				}
+			}),
+			{ numRuns: 150 }
+		);
+		// every changed byte breaks the chain; the count shows the cases were not skipped
+		expect(broken).toBeGreaterThan(100);
 	});
 });

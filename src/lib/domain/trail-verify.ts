@@ -79,6 +79,13 @@ export function canonicalRawRow(r: RawRow): string {
 export interface TrailCrypto {
 	/** SHA-256 of each message (32 bytes each), in order; may answer at once or later */
 	sha256(messages: Uint8Array[]): Uint8Array[] | Promise<Uint8Array[]>;
+	/**
+	 * Optional, for speed: SHA-256 of `n` messages each made of two pieces of `buf`, message i being
+	 * buf[p[4i], p[4i+1]) followed by buf[p[4i+2], p[4i+3]); the digests back to back, 32 bytes each.
+	 * It must have read what it needs of `buf` before it returns (the caller may reuse the buffer).
+	 * Without it the verifier joins the pieces itself and calls sha256.
+	 */
+	sha256Pieces?(buf: Uint8Array, pieces: Uint32Array, n: number): Uint8Array | Promise<Uint8Array>;
 	/** Ed25519 (RFC 8032) verification with a public key given as SPKI DER */
 	verifyEd25519(spki: Uint8Array, signature: Uint8Array, message: Uint8Array): boolean | Promise<boolean>;
 }
@@ -106,14 +113,15 @@ export function bytesToHex(b: Uint8Array): string {
 	return s;
 }
 
-// hex digit (lower case) → value, 255 for anything else
-const NIBBLE = new Uint8Array(256).fill(255);
-for (let i = 0; i < 16; i++) NIBBLE[HEX.charCodeAt(i)] = i;
 
-/** Do the 64 bytes at line[at…] spell the 32-byte digest in lower-case hex? No string is made. */
-export function hexAt(line: Uint8Array, at: number, digest: Uint8Array): boolean {
+// value (0–15) → its lower-case hex digit as a byte
+const HEX_BYTE = utf8.encode(HEX);
+
+/** Do the 64 bytes at line[at…] spell the 32 bytes digest[from…] in lower-case hex? No string is made. */
+export function hexAt(line: Uint8Array, at: number, digest: Uint8Array, from = 0): boolean {
 	for (let i = 0; i < 32; i++) {
-		if (((NIBBLE[line[at + 2 * i]] << 4) | NIBBLE[line[at + 2 * i + 1]]) !== digest[i] || NIBBLE[line[at + 2 * i]] === 255 || NIBBLE[line[at + 2 * i + 1]] === 255) return false;
+		const d = digest[from + i];
+		if (line[at + 2 * i] !== HEX_BYTE[d >> 4] || line[at + 2 * i + 1] !== HEX_BYTE[d & 15]) return false;
 	}
 	return true;
 }
@@ -260,13 +268,22 @@ export interface BundleResult {
 	head: string | null;
 }
 
-interface Pending {
-	seq: number;
-	line: Uint8Array;
-	prevAt: number;
-	hashAt: number;
-	bodyAt: number;
-	message: Uint8Array;
+/** A finding of the reading pass; `afterHash`: the event's own hash is checked before it. */
+interface ReadBreak extends Break {
+	afterHash: boolean;
+}
+
+/** Events read from one buffer, waiting for their hashes to be checked. */
+interface Batch {
+	/** seq of the batch's first event */
+	seq0: number;
+	n: number;
+	buf: Uint8Array;
+	/** the two pieces each event's hash covers (its prev, then its event text), 4 offsets an event */
+	pieces: Uint32Array;
+	/** each event's stored hash as its 64 hex bytes */
+	stored: Uint8Array;
+	digests: Uint8Array | Promise<Uint8Array> | null;
 }
 
 const P_SEQ = utf8.encode('{"seq":');
@@ -274,20 +291,51 @@ const P_PREV = utf8.encode(',"prev":"');
 const P_HASH = utf8.encode('","hash":"');
 const P_EVENT = utf8.encode('","event":');
 const P_BODY_SEQ = utf8.encode(',"seq":');
+/** the shortest event line: {"seq":1,"prev":"<64>","hash":"<64>","event":{}} */
+const MIN_EVENT_LINE = P_SEQ.length + 1 + P_PREV.length + 64 + P_HASH.length + 64 + P_EVENT.length + 3;
+/** batches whose hashes may be under way at once */
+const IN_FLIGHT = 4;
 
-function startsAt(line: Uint8Array, at: number, p: Uint8Array): boolean {
-	if (at + p.length > line.length) return false;
-	for (let i = 0; i < p.length; i++) if (line[at + i] !== p[i]) return false;
+function startsAt(buf: Uint8Array, at: number, end: number, p: Uint8Array): boolean {
+	if (at + p.length > end) return false;
+	for (let i = 0; i < p.length; i++) if (buf[at + i] !== p[i]) return false;
 	return true;
 }
 
+/** SHA-256 of two-piece messages: the provider's own sha256Pieces, or the pieces joined here. */
+function hashPieces(crypto: TrailCrypto, buf: Uint8Array, pieces: Uint32Array, n: number): Uint8Array | Promise<Uint8Array> {
+	if (crypto.sha256Pieces) return crypto.sha256Pieces(buf, pieces, n);
+	let total = 0;
+	for (let k = 0; k < n; k++) total += pieces[4 * k + 1] - pieces[4 * k] + pieces[4 * k + 3] - pieces[4 * k + 2];
+	const pool = new Uint8Array(total);
+	const messages: Uint8Array[] = new Array(n);
+	let o = 0;
+	for (let k = 0; k < n; k++) {
+		const from = o;
+		pool.set(buf.subarray(pieces[4 * k], pieces[4 * k + 1]), o);
+		o += pieces[4 * k + 1] - pieces[4 * k];
+		pool.set(buf.subarray(pieces[4 * k + 2], pieces[4 * k + 3]), o);
+		o += pieces[4 * k + 3] - pieces[4 * k + 2];
+		messages[k] = pool.subarray(from, o);
+	}
+	const pack = (digests: Uint8Array[]) => {
+		const out = new Uint8Array(32 * n);
+		for (let k = 0; k < n; k++) out.set(digests[k], 32 * k);
+		return out;
+	};
+	const d = crypto.sha256(messages);
+	return d instanceof Promise ? d.then(pack) : pack(d);
+}
+
 /**
- * Verifies a bundle as it streams in (`push` chunks of bytes, then `end`). Events are hashed in
- * batches (`batch`, 2,000 by default), so an asynchronous SHA-256 (Web Crypto) costs one wait per
- * batch. Keys and checkpoints come first in the bundle; each event is then checked for its place
- * (seq), its link (prev is the hash before it), its hash (SHA-256 over prev and the event's text),
- * and, where a valid checkpoint stands, that the chain still leads to the signed hash. The first
- * finding of any kind, by event, is the answer.
+ * Verifies a bundle as it streams in (`push` chunks of bytes, then `end`), in two passes over each
+ * event. Reading (here, as the bytes arrive): each event's place (seq), its link (prev is the stored
+ * hash of the event before), that its text says its seq, and, where a valid checkpoint stands,
+ * that the stored hash is the signed one. Hashing (in batches of up to `batch` events, 2,000 by
+ * default, at most IN_FLIGHT under way): SHA-256 over prev and the event's text must be the stored
+ * hash. An SHA-256 that runs elsewhere (a worker thread, the browser's Web Crypto) thus hashes while
+ * the next bytes are read. The first finding of any kind, by event, is the answer: an event is
+ * trusted only when every check of it and of every event before it holds.
  */
 export class BundleVerifier {
 	private crypto: TrailCrypto;
@@ -300,40 +348,49 @@ export class BundleVerifier {
 	private validCp = new Map<number, CheckpointFields>();
 	private cpBreak: Break | null = null;
 	private checkpointsReady = false;
-	private expect = 0;
-	private prev: string | null = null;
-	/** the previous event's hash: 64 bytes of prevLine from prevAt */
-	private prevLine: Uint8Array = new Uint8Array(64);
-	private prevAt = 0;
-	private pending = 0;
-	private lastGood = 0;
-	private matched = 0;
-	private chainBreak: Break | null = null;
 	private ended = false;
-	private batch: Pending[] = [];
-	private inflight: { batch: Pending[]; digests: Uint8Array[] | Promise<Uint8Array[]> } | null = null;
+	/** seq of the next event line to read */
+	private next = 0;
+	/** the stored hash of the event read last: 64 bytes of prevBuf from prevAt */
+	private prevBuf: Uint8Array = new Uint8Array(64);
+	private prevAt = 0;
+	/** the last checkpoint the chain led to (the anchor included), and all it led to */
+	private lastGood = 0;
+	private anchored = 0;
+	private matchedSeqs: number[] = [];
+	private readBreak: ReadBreak | null = null;
+	private current: Batch | null = null;
+	private inflight: Batch[] = [];
+	/** seq of the next event whose hash is to be checked */
+	private expect = 0;
+	private headBuf: Uint8Array | null = null;
+	private headAt = 0;
+	private chainBreak: Break | null = null;
 	/** events read so far, for a progress bar */
 	eventsRead = 0;
 	bytesRead = 0;
 
 	constructor(crypto: TrailCrypto, opts: { batch?: number } = {}) {
 		this.crypto = crypto;
-		this.batchSize = opts.batch ?? 2000;
+		this.batchSize = Math.max(1, opts.batch ?? 2000);
 	}
 
+	/** Nothing more needs reading: a finding has been made. */
 	get done(): boolean {
-		return this.chainBreak !== null;
+		return this.chainBreak !== null || this.readBreak !== null;
 	}
 
 	async push(bytes: Uint8Array): Promise<void> {
 		this.bytesRead += bytes.length;
-		if (this.chainBreak) return;
-		// a plain view (node's Buffer makes each of its slices a Buffer, which costs more per line)
+		if (this.done) return;
+		// bytes read through a plain view (node's Buffer makes each of its slices a Buffer, which costs
+		// more); newlines found by the caller's own object's indexOf (node's Buffer searches natively,
+		// several times faster)
 		const chunk = new Uint8Array(bytes.buffer, bytes.byteOffset, bytes.length);
 		let from = 0;
 		if (this.rest) {
 			// the line begun in the chunk before ends in this one: only that line is joined
-			const nl = chunk.indexOf(10);
+			const nl = bytes.indexOf(10);
 			if (nl < 0) {
 				const joined = new Uint8Array(this.rest.length + chunk.length);
 				joined.set(this.rest);
@@ -345,44 +402,52 @@ export class BundleVerifier {
 			line.set(this.rest);
 			line.set(chunk.subarray(0, nl), this.rest.length);
 			this.rest = null;
-			await this.line(line);
-			if (this.chainBreak) return;
+			const r = this.line(line, 0, line.length);
+			if (r) await r;
 			from = nl + 1;
 		}
-		for (;;) {
-			const nl = chunk.indexOf(10, from);
+		while (!this.done) {
+			const nl = bytes.indexOf(10, from);
 			if (nl < 0) break;
-			await this.line(chunk.subarray(from, nl));
-			if (this.chainBreak) return;
+			// most lines are read without waiting: only a full batch, or the first event, waits
+			const r = this.line(chunk, from, nl);
+			if (r) await r;
 			from = nl + 1;
 		}
-		if (from < chunk.length) this.rest = chunk.slice(from);
+		if (!this.done && from < chunk.length) this.rest = chunk.slice(from);
+		// the caller may reuse its bytes once this returns: what was read from them starts hashing now
+		await this.startBatch();
 	}
 
-	private fail(at: number, reason: string) {
-		if (!this.chainBreak) this.chainBreak = { at, reason };
+	private failRead(at: number, reason: string, afterHash = false) {
+		if (!this.readBreak) this.readBreak = { at, reason, afterHash };
 	}
 
-	private async line(line: Uint8Array): Promise<void> {
+	private line(buf: Uint8Array, s: number, e: number): void | Promise<void> {
 		this.lineNo++;
-		if (line.length === 0) return;
-		if (startsAt(line, 0, P_SEQ)) return this.eventLine(line);
-		await this.flush();
-		if (this.chainBreak) return;
+		if (s === e) return;
+		if (startsAt(buf, s, e, P_SEQ)) {
+			if (!this.checkpointsReady) return this.readyCheckpoints().then(() => this.eventLine(buf, s, e));
+			return this.eventLine(buf, s, e);
+		}
+		this.otherLine(buf.subarray(s, e));
+	}
+
+	private otherLine(line: Uint8Array): void {
 		let o: Record<string, unknown>;
 		try {
 			o = JSON.parse(new TextDecoder().decode(line));
 		} catch {
-			return this.fail(this.expect || 1, `line ${this.lineNo} is not JSON`);
+			return this.failRead(this.next || 1, `line ${this.lineNo} is not JSON`);
 		}
-		switch (o.type) {
+		switch (o?.type) {
 			case 'bundle': {
-				if (o.format !== BUNDLE_FORMAT) return this.fail(1, `not a Regolog trail bundle (format ${JSON.stringify(o.format)})`);
+				if (o.format !== BUNDLE_FORMAT) return this.failRead(1, `not a Regolog trail bundle (format ${JSON.stringify(o.format)})`);
 				const from = Number(o.from);
 				const to = Number(o.to);
 				this.header = { from, to, events: Number(o.events) };
+				this.next = from;
 				this.expect = from;
-				if (from === 1) this.prev = GENESIS_HASH;
 				return;
 			}
 			case 'key': {
@@ -395,10 +460,10 @@ export class BundleVerifier {
 				return;
 			case 'end':
 				this.ended = true;
-				if (Number(o.events) !== (this.header?.events ?? -1)) this.fail(this.expect, `the end line counts ${o.events} events, the header ${this.header?.events}`);
+				if (Number(o.events) !== (this.header?.events ?? -1)) this.failRead(this.next, `the end line counts ${o.events} events, the header ${this.header?.events}`);
 				return;
 			default:
-				return this.fail(this.expect || 1, `line ${this.lineNo} is of an unknown type`);
+				return this.failRead(this.next || 1, `line ${this.lineNo} is of an unknown type`);
 		}
 	}
 
@@ -406,134 +471,139 @@ export class BundleVerifier {
 	private async readyCheckpoints(): Promise<void> {
 		if (this.checkpointsReady) return;
 		this.checkpointsReady = true;
-		if (!this.header) return this.fail(1, 'the bundle has no header line');
+		if (!this.header) return this.failRead(1, 'the bundle has no header line');
 		for (const cp of this.rawCheckpoints) {
 			const c = await checkCheckpoint(cp, this.keys, this.crypto);
 			if (c.ok) this.validCp.set(c.fields.seq, c.fields);
 			else this.cpBreak = earliest(this.cpBreak, { at: cp.seq, reason: c.reason });
 		}
 		const { from } = this.header;
+		let prev = GENESIS_HASH;
 		if (from > 1) {
 			const anchor = this.validCp.get(from - 1);
-			if (!anchor) return this.fail(from, `no valid signed checkpoint at event ${from - 1} anchors the bundle's first event`);
-			this.prev = anchor.hash;
+			if (!anchor) return this.failRead(from, `no valid signed checkpoint at event ${from - 1} anchors the bundle's first event`);
+			prev = anchor.hash;
 			this.lastGood = anchor.seq;
-			this.matched++;
+			this.anchored = 1;
 		}
-		this.prevLine = utf8.encode(this.prev!);
+		this.prevBuf = utf8.encode(prev);
 		this.prevAt = 0;
 	}
 
-	private async eventLine(line: Uint8Array): Promise<void> {
-		if (!this.checkpointsReady) await this.readyCheckpoints();
-		if (this.chainBreak) return;
-		// {"seq":N,"prev":"<64>","hash":"<64>","event":<body>}, checked byte by byte
-		let i = P_SEQ.length;
-		let seq = 0;
-		while (i < line.length && line[i] >= 48 && line[i] <= 57) seq = seq * 10 + (line[i++] - 48);
+	/** Reads the event line buf[s, e): {"seq":N,"prev":"<64>","hash":"<64>","event":<text>}, byte by byte. */
+	private eventLine(buf: Uint8Array, s: number, e: number): void | Promise<void> {
+		if (this.done) return;
+		const seq = this.next;
+		let i = s + P_SEQ.length;
+		let n = 0;
+		while (i < e && buf[i] >= 48 && buf[i] <= 57) n = n * 10 + (buf[i++] - 48);
 		const prevAt = i + P_PREV.length;
 		const hashAt = prevAt + 64 + P_HASH.length;
 		const bodyAt = hashAt + 64 + P_EVENT.length;
-		if (i === P_SEQ.length || !startsAt(line, i, P_PREV) || !startsAt(line, prevAt + 64, P_HASH) || !startsAt(line, hashAt + 64, P_EVENT) || line[line.length - 1] !== 125 /* } */ || bodyAt >= line.length - 1) {
-			const at = this.expect + this.batch.length;
-			return this.fail(at, `event ${at}: line ${this.lineNo} is not an event line of the bundle format`);
+		if (i === s + P_SEQ.length || !startsAt(buf, i, e, P_PREV) || !startsAt(buf, prevAt + 64, e, P_HASH) || !startsAt(buf, hashAt + 64, e, P_EVENT) || buf[e - 1] !== 125 /* } */ || bodyAt >= e - 1) {
+			return this.failRead(seq, `event ${seq}: line ${this.lineNo} is not an event line of the bundle format`);
 		}
-		this.batch.push({ seq, line, prevAt, hashAt, bodyAt, message: EMPTY });
-		this.pending += 64 + line.length - 1 - bodyAt;
+		if (n !== seq) return this.failRead(seq, n > seq ? `event ${seq} is missing (event ${n} stands in its place)` : `event ${n} is out of place (event ${seq} expected)`);
+		// the link: prev is the stored hash of the event before (whose own hash is checked with it)
+		const prevBuf = this.prevBuf;
+		const pa = this.prevAt;
+		for (let j = 0; j < 64; j++) if (buf[prevAt + j] !== prevBuf[pa + j]) return this.failRead(seq, 'link to the previous event does not match');
+		let b = this.current;
+		if (b && b.buf !== buf) {
+			b = null;
+			const started = this.startBatch();
+			if (started) return started.then(() => this.eventLine(buf, s, e));
+		}
+		if (!b) b = this.current = this.newBatch(buf, seq, Math.min(this.batchSize, Math.floor((buf.length - s) / MIN_EVENT_LINE) + 1));
+		const k = b.n++;
+		b.pieces[4 * k] = prevAt;
+		b.pieces[4 * k + 1] = prevAt + 64;
+		b.pieces[4 * k + 2] = bodyAt;
+		b.pieces[4 * k + 3] = e - 1;
+		const stored = b.stored;
+		for (let j = 0; j < 64; j++) stored[64 * k + j] = buf[hashAt + j];
+		this.prevBuf = stored;
+		this.prevAt = 64 * k;
+		this.next++;
 		this.eventsRead++;
-		if (this.batch.length >= this.batchSize) await this.flush(false);
-	}
-
-	/**
-	 * Hashes the batch read so far and checks it. With `drain` false the hashing of this batch is
-	 * only started, and the batch before is checked meanwhile: an SHA-256 that runs elsewhere (a
-	 * worker thread, the browser's Web Crypto) then hashes one batch while the next is read.
-	 */
-	private async flush(drain = true): Promise<void> {
-		const batch = this.batch;
-		if (this.chainBreak) return;
-		const previous = this.inflight;
-		this.inflight = null;
-		if (batch.length) {
-			this.batch = [];
-			this.inflight = { batch, digests: this.hashBatch(batch) };
-		}
-		if (previous) await this.check(previous);
-		if (drain && this.inflight && !this.chainBreak) {
-			const last = this.inflight;
-			this.inflight = null;
-			await this.check(last);
-		}
-	}
-
-	private hashBatch(batch: Pending[]): Uint8Array[] | Promise<Uint8Array[]> {
-		// the hashed bytes of every event of the batch (prev, then the event's text) side by side in one buffer
-		const pool = new Uint8Array(this.pending);
-		this.pending = 0;
-		let o = 0;
-		for (let k = 0; k < batch.length; k++) {
-			const p = batch[k];
-			const line = p.line;
-			const end = line.length - 1;
-			for (let i = 0; i < 64; i++) pool[o + i] = line[p.prevAt + i];
-			pool.set(line.subarray(p.bodyAt, end), o + 64);
-			p.message = pool.subarray(o, o + 64 + end - p.bodyAt);
-			o += 64 + end - p.bodyAt;
-		}
-		return this.crypto.sha256(batch.map(messageOf));
-	}
-
-	private async check(job: { batch: Pending[]; digests: Uint8Array[] | Promise<Uint8Array[]> }): Promise<void> {
-		const batch = job.batch;
-		const digests = await job.digests;
-		if (this.chainBreak) return;
-		for (let k = 0; k < batch.length; k++) {
-			const p = batch[k];
-			const seq = this.expect;
-			if (p.seq !== seq) return this.fail(seq, p.seq > seq ? `event ${seq} is missing (event ${p.seq} stands in its place)` : `event ${p.seq} is out of place (event ${seq} expected)`);
-			// the link: prev is the hash of the event before
-			const line = p.line;
-			const prevLine = this.prevLine;
-			const prevAt = this.prevAt;
-			for (let i = 0; i < 64; i++) if (line[p.prevAt + i] !== prevLine[prevAt + i]) return this.fail(seq, 'link to the previous event does not match');
-			if (!hexAt(line, p.hashAt, digests[k])) return this.fail(seq, 'content does not match its hash');
-			// the event's own text must say its seq (the last top-level member but its subject)
-			const s = lastIndexOf(line, P_BODY_SEQ, p.bodyAt);
-			if (s < 0 || !seqAt(line, s + P_BODY_SEQ.length, seq)) return this.fail(seq, 'the event does not say its own seq');
-			this.prevLine = line;
-			this.prevAt = p.hashAt;
+		// the event's own text must say its seq (the last top-level member but its subject)
+		const at = lastIndexOf(buf, P_BODY_SEQ, bodyAt, e);
+		if (at < 0 || !seqAt(buf, at + P_BODY_SEQ.length, seq)) this.failRead(seq, 'the event does not say its own seq', true);
+		else {
 			const cp = this.validCp.get(seq);
 			if (cp) {
-				if (!hexEq(line.subarray(p.hashAt, p.hashAt + 64), cp.hash)) {
-					const b = rewrittenBreak(seq, this.lastGood);
-					return this.fail(b.at, b.reason);
+				if (!hexEq(buf, hashAt, cp.hash)) {
+					const r = rewrittenBreak(seq, this.lastGood);
+					this.failRead(r.at, r.reason, true);
+				} else {
+					this.lastGood = seq;
+					this.matchedSeqs.push(seq);
 				}
-				this.lastGood = seq;
-				this.matched++;
 			}
-			this.expect++;
 		}
+		if (b.n === b.pieces.length / 4 || this.readBreak) return this.startBatch();
+	}
+
+	private newBatch(buf: Uint8Array, seq0: number, capacity: number): Batch {
+		return { seq0, n: 0, buf, pieces: new Uint32Array(4 * capacity), stored: new Uint8Array(64 * capacity), digests: null };
+	}
+
+	/** Starts hashing the batch being read; checks the oldest batch under way once there are too many. */
+	private startBatch(): Promise<void> | void {
+		const b = this.current;
+		this.current = null;
+		if (b && b.n) {
+			b.digests = hashPieces(this.crypto, b.buf, b.pieces, b.n);
+			b.buf = EMPTY;
+			this.inflight.push(b);
+		}
+		if (this.inflight.length > IN_FLIGHT) return this.checkOldest();
+	}
+
+	private async checkOldest(): Promise<void> {
+		const b = this.inflight.shift()!;
+		const digests = await b.digests!;
+		b.digests = null;
+		if (this.chainBreak) return;
+		const stop = this.readBreak?.afterHash ? this.readBreak.at : Infinity;
+		for (let k = 0; k < b.n; k++) {
+			const seq = b.seq0 + k;
+			if (!hexAt(b.stored, 64 * k, digests, 32 * k)) {
+				this.chainBreak = { at: seq, reason: 'content does not match its hash' };
+				return;
+			}
+			if (seq >= stop) return;
+			this.headBuf = b.stored;
+			this.headAt = 64 * k;
+			this.expect = seq + 1;
+		}
+	}
+
+	/** Checks every batch under way; then a finding of the reading pass is the answer, if there is one. */
+	private async drain(): Promise<void> {
+		await this.startBatch();
+		while (this.inflight.length) await this.checkOldest();
+		if (!this.chainBreak && this.readBreak) this.chainBreak = { at: this.readBreak.at, reason: this.readBreak.reason };
 	}
 
 	async end(): Promise<BundleResult> {
-		if (!this.chainBreak && this.rest && this.rest.length) {
+		if (!this.done && this.rest && this.rest.length) {
 			const partial = this.rest;
 			this.rest = null;
-			await this.flush();
-			const at = this.expect;
-			if (startsAt(partial, 0, P_SEQ)) this.fail(at, `the bundle ends in the middle of event ${at}`);
-			else this.fail(at, `the bundle ends in the middle of line ${this.lineNo + 1}`);
+			if (startsAt(partial, 0, partial.length, P_SEQ)) this.failRead(this.next, `the bundle ends in the middle of event ${this.next}`);
+			else this.failRead(this.next, `the bundle ends in the middle of line ${this.lineNo + 1}`);
 		}
-		if (!this.checkpointsReady && !this.chainBreak) await this.readyCheckpoints();
-		await this.flush();
+		if (!this.checkpointsReady && !this.done) await this.readyCheckpoints();
 		const h = this.header;
-		if (!this.chainBreak && h) {
-			if (!this.ended) this.fail(this.expect, `the bundle ends before its end line: events from ${this.expect} on are missing`);
-			else if (this.expect !== h.to + 1) this.fail(this.expect, `event ${this.expect} is missing`);
+		if (!this.done && h) {
+			if (!this.ended) this.failRead(this.next, `the bundle ends before its end line: events from ${this.next} on are missing`);
+			else if (this.next !== h.to + 1) this.failRead(this.next, `event ${this.next} is missing`);
 		}
+		await this.drain();
 		const found = earliest(this.chainBreak, this.cpBreak);
 		const from = h?.from ?? null;
 		const first = from ?? 1;
+		const chainTo = this.chainBreak ? this.chainBreak.at : Infinity;
 		return {
 			ok: found === null,
 			events: found ? Math.max(0, found.at - first) : this.expect - first,
@@ -541,25 +611,27 @@ export class BundleVerifier {
 			...(found ? { reason: found.reason } : {}),
 			from,
 			to: h?.to ?? null,
-			checkpoints: { valid: this.validCp.size, total: this.rawCheckpoints.length, matched: this.matched },
-			head: this.expect > first ? new TextDecoder().decode(this.prevLine.subarray(this.prevAt, this.prevAt + 64)) : null
+			checkpoints: { valid: this.validCp.size, total: this.rawCheckpoints.length, matched: this.anchored + this.matchedSeqs.filter((s) => s < chainTo).length },
+			head: this.headBuf && this.expect > first ? new TextDecoder().decode(this.headBuf.subarray(this.headAt, this.headAt + 64)) : null
 		};
 	}
 }
 
-function hexEq(bytes: Uint8Array, hex: string): boolean {
-	if (bytes.length !== hex.length) return false;
-	for (let i = 0; i < hex.length; i++) if (bytes[i] !== hex.charCodeAt(i)) return false;
+/** Are the 64 bytes at buf[at…] the characters of hex? */
+function hexEq(buf: Uint8Array, at: number, hex: string): boolean {
+	if (hex.length !== 64 || at + 64 > buf.length) return false;
+	for (let i = 0; i < 64; i++) if (buf[at + i] !== hex.charCodeAt(i)) return false;
 	return true;
 }
 
 const EMPTY = new Uint8Array(0);
-const messageOf = (p: Pending) => p.message;
 
-/** The last place of `needle` in hay[from…]. */
-function lastIndexOf(hay: Uint8Array, needle: Uint8Array, from = 0): number {
-	outer: for (let i = hay.length - needle.length; i >= from; i--) {
-		for (let j = 0; j < needle.length; j++) if (hay[i + j] !== needle[j]) continue outer;
+/** The last place of `needle` in hay[from, end). */
+function lastIndexOf(hay: Uint8Array, needle: Uint8Array, from: number, end: number): number {
+	const first = needle[0];
+	outer: for (let i = end - needle.length; i >= from; i--) {
+		if (hay[i] !== first) continue;
+		for (let j = 1; j < needle.length; j++) if (hay[i + j] !== needle[j]) continue outer;
 		return i;
 	}
 	return -1;
