@@ -51,3 +51,12 @@ export function plusMinus(expandedUg: number | null): string {
 	if (expandedUg === null) return '(not weighed here)';
 	return `± ${expandedUg < 10 ? expandedUg.toFixed(2) : expandedUg.toFixed(1)} µg`;
 }
+
+/** Words for the kinds of document. */
+export const DOCUMENT_KIND_LABELS: Record<string, string> = {
+	chromatogram: 'Chromatogram',
+	photo: 'Photo',
+	shipping_form: 'Shipping form',
+	other: 'Other',
+	blank_control_report: 'Blank-control table'
+};

@@ -89,3 +89,16 @@ test('a lab asks for two pieces never exposed to ambient air; the curator plans,
 		expect((await item.json()).item.massUg).toBe(1000);
 	}
 });
+
+test('a lab member downloads the characterisation of a piece on offer from its row', async ({ browser }) => {
+	const lab = await signIn(browser, 'analyst@marrow.example');
+	await lab.goto('/offer?collection=HLF');
+	const link = lab.getByTestId('offer-document').filter({ hasText: 'Chromatogram: F1-bulk-chromatogram.csv' });
+	await expect(link).toBeVisible();
+	await expect(lab.getByTestId('offer-document').filter({ hasText: 'Other: F1-characterisation-sheet.pdf' })).toBeVisible();
+	const [download] = await Promise.all([lab.waitForEvent('download'), link.click()]);
+	expect(download.suggestedFilename()).toBe('F1-bulk-chromatogram.csv');
+	const path = await download.path();
+	const { readFileSync } = await import('node:fs');
+	expect(readFileSync(path!, 'utf8')).toMatch(/^# HLF-\d{5}\/\w bulk extract, demo data \(invented\)\nretention_min,signal_pA\n/);
+});

@@ -45,6 +45,39 @@ describe('material on offer', () => {
 		for (const c of first.collections) expect(c.allocatableUg, c.code).toBe(totals[c.code]);
 	});
 
+	it('lets every lab read the facility’s photos, chromatograms and characterisation of a piece on offer, and nothing else of the facility’s', async () => {
+		const fennick = await signedIn(DEMO.fennick);
+		const marrow = await signedIn(DEMO.marrow);
+		const curator = await signedIn(DEMO.curator);
+		const { items } = await wholeOffer(fennick);
+		const withDocs = (items as unknown as { code: string; documents: { id: string; name: string; kind: string }[] }[]).filter((i) => i.documents.length);
+		// the demo's characterisation sheet and chromatogram of HLF fragment F1
+		expect(withDocs.flatMap((i) => i.documents.map((d) => d.name)).sort()).toEqual(['F1-bulk-chromatogram.csv', 'F1-characterisation-sheet.pdf']);
+		const piece = withDocs[0];
+		for (const c of [fennick, marrow]) {
+			for (const d of piece.documents) {
+				const r = await c.request('GET', `/api/documents/${d.id}/file`);
+				expect(r.status, `${d.name}`).toBe(200);
+				if (d.kind === 'chromatogram') expect(String(r.body).startsWith(`# ${piece.code} bulk extract`)).toBe(true);
+				else expect(String(r.body).startsWith('%PDF-')).toBe(true);
+			}
+		}
+		// a shipping form of the same piece stays the facility's
+		const form = await curator.request('POST', `/api/documents?subject=item&ref=${encodeURIComponent(piece.code)}&kind=shipping_form&name=form.txt`, 'carrier form', { 'content-type': 'text/plain' });
+		expect(form.status, JSON.stringify(form.body)).toBe(201);
+		expect((await fennick.get(`/api/documents/${form.body.document.id}/file`)).status).toBe(404);
+		// a photo of a piece a lab holds is not on offer: the holder sees it, another lab does not
+		const [held] = await db().query<{ code: string; lab: string }>(
+			`SELECT i.code, l.name AS lab FROM items i JOIN labs l ON l.id = i.holder_lab_id WHERE l.name LIKE 'Marrow%' AND i.kind <> 'blank' ORDER BY i.serial LIMIT 1`,
+			{ type: QueryTypes.SELECT }
+		);
+		const photo = await curator.request('POST', `/api/documents?subject=item&ref=${encodeURIComponent(held.code)}&kind=photo&name=held.txt`, 'a photo note', { 'content-type': 'text/plain' });
+		expect(photo.status, JSON.stringify(photo.body)).toBe(201);
+		expect((await marrow.get(`/api/documents/${photo.body.document.id}/file`)).status).toBe(200);
+		expect((await fennick.get(`/api/documents/${photo.body.document.id}/file`)).status).toBe(404);
+		expect((await fennick.get(`/api/documents/${photo.body.document.id}`)).status).toBe(404);
+	});
+
 	it('filters, sorts and pages by keyset without losing or repeating an item', async () => {
 		const lab = await signedIn(DEMO.marrow);
 		const all = (await wholeOffer(lab, '&neverAmbient=true&sort=mass&dir=desc')).items;

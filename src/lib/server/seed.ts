@@ -4,6 +4,7 @@ import { appendTrail, SYSTEM_ACTOR } from './trail';
 import { seedRegistry } from './seed-registry';
 import { seedCustody } from './seed-custody';
 import { seedBlankControlDemo } from './blank-reports/demo';
+import { seedOfferDocuments } from './offer/demo-documents';
 import { seedHandling } from './handling/seed';
 
 export const DEMO_LABS = [
@@ -88,5 +89,6 @@ export async function seedDemo(sequelize: Sequelize, opts: { log?: (s: string) =
 	await seedRegistry(sequelize, log);
 	await seedHandling(sequelize, log);
 	await seedBlankControlDemo(sequelize, log);
+	await seedOfferDocuments(sequelize, log);
 	if (accounts) await seedCustody(sequelize, log);
 }

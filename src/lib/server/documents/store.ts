@@ -5,7 +5,7 @@ import { config } from '../config';
 import { appendTrail } from '../trail';
 import { trailActor, type Who } from '../registry/common';
 import { subjectById, type Subject, type SubjectType } from './subjects';
-import { contentTypeFor, megabytes, type DocumentKind } from './types';
+import { contentTypeFor, megabytes, OFFER_DOCUMENT_KINDS, type DocumentKind } from './types';
 import { defaultTarget, deleteObject, putStream, type StorageTarget } from './objects';
 
 /**
@@ -13,7 +13,7 @@ import { defaultTarget, deleteObject, putStream, type StorageTarget } from './ob
  * listing. File types are in types.ts, the bucket's side in objects.ts, verified downloads in
  * download.ts; their names are exported here too, for code that imports them from this module.
  */
-export { DOCUMENT_KINDS, ALLOWED_TYPES, contentTypeFor, allowedList, megabytes, type DocumentKind } from './types';
+export { DOCUMENT_KINDS, OFFER_DOCUMENT_KINDS, ALLOWED_TYPES, contentTypeFor, allowedList, megabytes, type DocumentKind } from './types';
 export { defaultTarget, storageUnavailable, putStream, deleteObject, type StorageTarget } from './objects';
 export { openVerified, attachmentHeader, downloadResponse } from './download';
 
@@ -123,14 +123,22 @@ const DOC_SELECT = `SELECT d.*, u.email AS uploaded_by_label FROM documents d LE
 
 /**
  * May this viewer see this document? Staff see every document. A lab member sees their own lab's
- * documents, and the facility's documents on a subject they can see; never another lab's, even on
- * an item their lab holds now.
+ * documents, the facility's documents on a subject they can see, and the facility's photos,
+ * chromatograms and characterisation of an item on offer (stored at the facility, not a blank: the
+ * offer's own rule); never another lab's, even on an item their lab holds now.
  */
 export async function canSeeDocument(sq: Sequelize, who: Pick<Who, 'role' | 'labId'>, d: DocumentRow): Promise<boolean> {
 	if (who.role !== 'lab_member') return true;
 	if (d.lab_id !== null) return d.lab_id === who.labId;
+	if (d.subject_type === 'item' && OFFER_DOCUMENT_KINDS.includes(d.kind) && (await itemOnOffer(sq, d.subject_id))) return true;
 	const subject = await subjectById(sq, d.subject_type, d.subject_id);
 	return subject !== null && subject.labId !== null && subject.labId === who.labId;
+}
+
+/** Is the item on offer now (the offer's rule: stored at the facility, and not a blank)? */
+async function itemOnOffer(sq: Sequelize, id: string): Promise<boolean> {
+	const rows = await sq.query(`SELECT 1 FROM items WHERE id = :id AND state = 'stored' AND holder_lab_id IS NULL AND kind <> 'blank'`, { type: QueryTypes.SELECT, replacements: { id } });
+	return rows.length > 0;
 }
 
 /** A document by id as the viewer may see it; an unknown id and one out of sight get the same 404. */

@@ -6,6 +6,13 @@ import { ApiProblem } from '../api';
 export const DOCUMENT_KINDS = ['blank_control_report', 'chromatogram', 'photo', 'shipping_form', 'other'] as const;
 export type DocumentKind = (typeof DOCUMENT_KINDS)[number];
 
+/**
+ * The facility's documents on an item on offer that every lab may read, so a scientist can judge a
+ * piece before asking for it: its photos, chromatograms and other characterisation. Blank-control
+ * reports and shipping forms stay with their lab or the facility.
+ */
+export const OFFER_DOCUMENT_KINDS: readonly DocumentKind[] = ['photo', 'chromatogram', 'other'];
+
 const isText = (head: Uint8Array): boolean => {
 	if (head.includes(0)) return false;
 	try {

@@ -5,6 +5,7 @@ import { NO_EXPOSURE, OFFER_SORTS, offerExposure, sortValue, type OfferConstrain
 import { ApiProblem } from '../api';
 import { collectionSummaries, type CollectionSummary } from '../registry/collections';
 import { collectionExposureInputs } from '../handling/exposure';
+import { OFFER_DOCUMENT_KINDS } from '../documents/types';
 
 /** An item on offer with what the planner needs besides (its mass uncertainty). */
 export interface OfferRow extends OfferItem {
@@ -116,8 +117,8 @@ async function build(sq: Sequelize, key: string): Promise<Snapshot> {
 		else byCollection.set(r.collection, [r]);
 	}
 	const docs = await sq.query<{ subject_id: string; id: string; original_name: string; kind: string }>(
-		`SELECT subject_id, id, original_name, kind FROM documents WHERE subject_type = 'item' AND lab_id IS NULL AND kind IN ('photo', 'chromatogram', 'other') ORDER BY uploaded_at`,
-		{ type: QueryTypes.SELECT }
+		`SELECT subject_id, id, original_name, kind FROM documents WHERE subject_type = 'item' AND lab_id IS NULL AND kind IN (:kinds) ORDER BY uploaded_at`,
+		{ type: QueryTypes.SELECT, replacements: { kinds: [...OFFER_DOCUMENT_KINDS] } }
 	);
 	const documents = new Map<string, { id: string; name: string; kind: string }[]>();
 	for (const d of docs) {
