@@ -25,10 +25,11 @@ export const scales = {
 	ochre: { 100: '#f8ead2', 300: '#e7c27f', 500: '#c98a2b', 600: '#c67600', 700: '#8a5a14' },
 	tarn: { 100: '#dcefee', 300: '#8fc7c3', 500: '#2e7d89', 700: '#1d524f', 900: '#0f2e2c' },
 	mere: { 100: '#e1e9f6', 300: '#9db4dc', 500: '#314d7f', 700: '#223a63' },
-	alert: { 100: '#fbe3df', 500: '#b8322e', 700: '#7d2415' }
+	alert: { 100: '#fbe3df', 500: '#b8322e', 700: '#7d2415' },
+	heather: { 500: '#5b4f8a' }
 } as const;
 
-const { basalt, ochre, tarn, mere, alert } = scales;
+const { basalt, ochre, tarn, mere, alert, heather } = scales;
 
 /** A colour with its chart mark and its badge background and words. */
 export interface Tone {
@@ -69,6 +70,19 @@ export const meaning = {
 	chart: { ink: basalt[800], muted: basalt[700], axis: basalt[500], rule: basalt[200], grid: basalt[100], band: ochre[300], paper: '#ffffff' }
 } as const;
 
+/**
+ * The atmosphere classes on the handling timeline and in its legend: a mark, and a pattern for the
+ * two classes that count as exposure (ambient air hatched, cleanroom air dotted), so neither colour
+ * nor pattern is the only cue; every use also prints the class name.
+ */
+export const ATMOSPHERE_COLOURS: Record<'nitrogen_glovebox' | 'argon_glovebox' | 'cleanroom_air' | 'ambient_air' | 'vacuum', { fill: string; pattern: 'solid' | 'hatch' | 'dots' }> = {
+	nitrogen_glovebox: { fill: tarn[500], pattern: 'solid' },
+	argon_glovebox: { fill: heather[500], pattern: 'solid' },
+	cleanroom_air: { fill: ochre[500], pattern: 'dots' },
+	ambient_air: { fill: alert[500], pattern: 'hatch' },
+	vacuum: { fill: basalt[700], pattern: 'solid' }
+};
+
 /** Sets of marks that appear side by side in one chart and must stay distinguishable. */
 export const SIDE_BY_SIDE: Record<string, Record<string, string>> = {
 	'mass share': {
@@ -86,7 +100,8 @@ export const SIDE_BY_SIDE: Record<string, Record<string, string>> = {
 		LOQ: meaning.flag.below_loq.mark
 	},
 	'ee chart': { 'L-excess': meaning.excess.L.mark, 'D-excess': meaning.excess.D.mark, axis: meaning.chart.ink },
-	ledger: { mass: meaning.sample.mark, 'split loss': meaning.loss.mark, 'uncertainty band': meaning.chart.band }
+	ledger: { mass: meaning.sample.mark, 'split loss': meaning.loss.mark, 'uncertainty band': meaning.chart.band },
+	'handling timeline': Object.fromEntries(Object.entries(ATMOSPHERE_COLOURS).map(([k, v]) => [k, v.fill]))
 };
 
 /** Colours as Tailwind nests them: a name holds a colour or more names. */

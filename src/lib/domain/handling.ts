@@ -39,14 +39,3 @@ export function rulesOf(allowed: readonly string[], maxAirMinutes: number | null
 	return { allowedAtmospheres: ATMOSPHERES.filter((a) => classes.has(a)), maxAmbientAirMinutes: maxAirMinutes };
 }
 
-/**
- * Regolog's own palette for the atmosphere classes (timeline bars and legend swatches); every use
- * also prints the class name, so colour is never the only cue.
- */
-export const ATMOSPHERE_COLOURS: Record<Atmosphere, { fill: string; pattern: 'solid' | 'hatch' | 'dots' }> = {
-	nitrogen_glovebox: { fill: '#2f7f7a', pattern: 'solid' },
-	argon_glovebox: { fill: '#5b4f8a', pattern: 'solid' },
-	cleanroom_air: { fill: '#c98a2b', pattern: 'dots' },
-	ambient_air: { fill: '#b83a26', pattern: 'hatch' },
-	vacuum: { fill: '#3f3c34', pattern: 'solid' }
-};
