@@ -105,6 +105,44 @@ describe('splitting through the API', () => {
 		expect(ok.body.verdict).toBe('needs-reason');
 	});
 
+	it('refuses a load above the balance’s capacity, in a split and at registration, naming the field, and changes nothing', async () => {
+		const admin = await signedIn(DEMO.admin);
+		const made = await admin.post('/api/balances', { name: `Capacity test balance ${Date.now()}`, readabilityUg: 2, repeatabilityUg: 0.5, calibrationDue: '2099-01-31', capacityUg: 5_000_000 });
+		expect(made.status, JSON.stringify(made.body)).toBe(201);
+		const b = made.body.balance;
+		expect(b.capacityUg).toBe(5_000_000);
+		try {
+			const parent = await newSpecimen(curator, 8_000_000);
+			// the 1 mg child fits; the 7.999 g parent left behind does not
+			const r = await curator.post(`/api/items/${parent}/splits`, { children: [{ massUg: 1_000 }], balanceId: b.id, parentAfterUg: 8_000_000 - 1_000 - 5 });
+			expect(r.status).toBe(422);
+			expect(r.body.error.code).toBe('above_capacity');
+			expect(r.body.error.fields).toEqual({ parentAfterUg: `7998.995 mg is above the capacity of ${b.name} (5000.000 mg)` });
+			expect((await curator.get(`/api/items/${parent}`)).body.item.massUg).toBe(8_000_000);
+			expect((await curator.get(`/api/items/${parent}/ledger`)).body.entries).toHaveLength(1);
+			// a child with its tare counts as what is put on the pan
+			const tared = await curator.post(`/api/items/${parent}/splits`, { children: [{ massUg: 1_000, tareUg: 4_999_500 }], balanceId: b.id });
+			expect(tared.status).toBe(422);
+			expect(Object.keys(tared.body.error.fields)).toEqual(['children.0.massUg']);
+			const reg = await curator.post('/api/items', { collection: 'HLF', massUg: 6_000_000, description: 'too heavy for the pan', weighing: { balanceId: b.id } });
+			expect(reg.status).toBe(422);
+			expect(reg.body.error.fields).toHaveProperty('massUg');
+			// the parent reweighed on a balance that holds it, the child on this one
+			const sm = await balanceByReadability(curator, 10);
+			const ok = await curator.post(`/api/items/${parent}/splits`, { children: [{ massUg: 2_000 }], balanceId: b.id, parentBalanceId: sm.id, parentAfterUg: 8_000_000 - 2_000 - 40 });
+			expect(ok.status, JSON.stringify(ok.body)).toBe(201);
+			expect(ok.body.parentBalance).toMatchObject({ id: sm.id });
+			expect((await curator.get(`/api/items/${parent}`)).body.item).toMatchObject({ massUg: 8_000_000 - 2_000 - 40, uUg: sm.netUUg });
+			// a parent balance without a reweighed mass says what is missing
+			const lone = await curator.post(`/api/items/${parent}/splits`, { children: [{ massUg: 1_000 }], balanceId: b.id, parentBalanceId: sm.id });
+			expect(lone.status).toBe(422);
+			expect(lone.body.error.fields).toEqual({ parentAfterUg: 'is required with parentBalanceId' });
+		} finally {
+			// retired again, so later tests that look for a balance by its readability do not meet it
+			expect((await admin.request('PATCH', `/api/balances/${b.id}`, { active: false })).status).toBe(200);
+		}
+	});
+
 	it('refuses a weighing on a balance past its calibration date', async () => {
 		const admin = await signedIn(DEMO.admin);
 		const made = await admin.post('/api/balances', { name: `Overdue test balance ${Date.now()}`, readabilityUg: 1, repeatabilityUg: 0.5, calibrationDue: '2020-01-31' });

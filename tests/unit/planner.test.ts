@@ -24,8 +24,9 @@ function qualifies(it: PlanCandidate, c: OfferConstraints): boolean {
 	return true;
 }
 
-function balanceFor(bs: readonly PlanBalance[], piece: number): PlanBalance | null {
-	return [...bs].filter((b) => b.minimumWeightUg <= piece).sort((a, b) => a.netUUg - b.netUUg || a.minimumWeightUg - b.minimumWeightUg || (a.name < b.name ? -1 : 1))[0] ?? null;
+/** The balance for a piece (m_min ≤ piece), holding the heaviest load within its capacity, smallest u. */
+function balanceFor(bs: readonly PlanBalance[], piece: number, heaviest = piece): PlanBalance | null {
+	return [...bs].filter((b) => b.minimumWeightUg <= piece && (b.capacityUg == null || b.capacityUg >= heaviest)).sort((a, b) => a.netUUg - b.netUUg || a.minimumWeightUg - b.minimumWeightUg || (a.name < b.name ? -1 : 1))[0] ?? null;
 }
 
 type Scores = Record<Criterion, number>;
@@ -54,8 +55,15 @@ function bruteBest(input: PlanInput, order: readonly Criterion[]): Scores | null
 		if (left >= 1 && it.massUg <= piece && it.massUg >= Math.ceil(piece * 0.95) && it.massUg >= b.minimumWeightUg) {
 			choose(i + 1, left - 1, taken + it.massUg, { exposure: s.exposure + e, depth: s.depth + it.depth, splits: s.splits, fragmentation: s.fragmentation, reserve: s.reserve + it.massUg });
 		}
-		for (let n = 1; n <= left; n++) {
-			if (it.massUg - n * piece - loss < b.minimumWeightUg) break;
+		// the pieces go on b; the parent left behind is reweighed on b when b holds it, else on the
+		// finest balance that does, whose minimum weight it must keep
+		const after1 = it.massUg - piece - loss;
+		const own =
+			b.capacityUg == null || b.capacityUg >= after1
+				? b
+				: ([...input.balances].filter((x) => x.capacityUg == null || x.capacityUg >= after1).sort((x, y) => x.netUUg - y.netUUg || x.minimumWeightUg - y.minimumWeightUg || (x.name < y.name ? -1 : 1))[0] ?? null);
+		for (let n = 1; own && n <= left; n++) {
+			if (it.massUg - n * piece - loss < own.minimumWeightUg) break;
 			const t = n * piece + loss;
 			choose(i + 1, left - n, taken + t, { exposure: s.exposure + n * e, depth: s.depth + n * (it.depth + 1), splits: s.splits + 1, fragmentation: s.fragmentation + it.massUg, reserve: s.reserve + t });
 		}
@@ -80,10 +88,11 @@ const itemArb = (i: number) =>
 		kind: fc.constantFrom('specimen' as const, 'aliquot' as const)
 	}).map((x): PlanCandidate => ({ ...x, code: `X${i}` }));
 const itemsArb = fc.integer({ min: 1, max: 8 }).chain((n) => fc.tuple(...Array.from({ length: n }, (_, i) => itemArb(i))));
+// capacities, when recorded, in the range of the items' masses, so they decide which balance a split can use
 const balancesArb = fc.array(
-	fc.record({ d: fc.constantFrom(0.1, 1, 10), s: fc.double({ min: 0.05, max: 1, noNaN: true }) }),
+	fc.record({ d: fc.constantFrom(0.1, 1, 10), s: fc.double({ min: 0.05, max: 1, noNaN: true }), capacity: fc.option(fc.integer({ min: 1_000, max: 50_000 }), { nil: null }) }),
 	{ minLength: 1, maxLength: 3 }
-).map((bs) => bs.map((b, i): PlanBalance => ({ id: `b${i}`, name: `balance ${i}`, minimumWeightUg: minimumWeight(b), netUUg: netUncertainty(b) })));
+).map((bs) => bs.map((b, i): PlanBalance => ({ id: `b${i}`, name: `balance ${i}`, minimumWeightUg: minimumWeight(b), netUUg: netUncertainty(b), capacityUg: b.capacity })));
 // each constraint is present in about one case in four, so most collections still have plans
 const sometimes = <T,>(a: fc.Arbitrary<T>) => fc.option(a, { freq: 3, nil: undefined });
 const constraintsArb = fc
@@ -148,7 +157,14 @@ describe('allocation planner (DESIGN §3.11), on random collections', () => {
 								expect(c).toBeGreaterThanOrEqual(b.minimumWeightUg);
 							}
 							expect(s.parentAfterUg).toBe(it.massUg - s.childrenUg.reduce((a, c) => a + c, 0) - input.expectedLossUg);
-							expect(s.parentAfterUg).toBeGreaterThanOrEqual(b.minimumWeightUg);
+							// the parent is reweighed on its own balance (the pieces' unless that cannot hold it)
+							const pb = input.balances.find((x) => x.id === s.parentBalanceId)!;
+							expect(pb).toBeDefined();
+							expect(s.parentAfterUg).toBeGreaterThanOrEqual(pb.minimumWeightUg);
+							// and no load above a balance's capacity
+							if (b.capacityUg != null) expect(Math.max(...s.childrenUg)).toBeLessThanOrEqual(b.capacityUg);
+							if (pb.capacityUg != null) expect(s.parentAfterUg).toBeLessThanOrEqual(pb.capacityUg);
+							if (pb.id !== b.id) expect(b.capacityUg).toBeLessThan(s.parentAfterUg + (s.childrenUg.length - 1) * piece);
 							taken += s.childrenUg.reduce((a, c) => a + c, 0) + input.expectedLossUg;
 							pieces += s.childrenUg.length;
 						} else {
@@ -214,6 +230,25 @@ describe('allocation planner, worked cases', () => {
 		expect(short.ruledOut[0].reason).toContain('0.820 mg minimum weight');
 		const just = planAllocation({ ...base, items: [item('A', 1_830)] });
 		expect(just.plans[0].steps[0]).toMatchObject({ action: 'split', childrenUg: [1_000], parentAfterUg: 820, balanceId: 'mb' });
+	});
+
+	it('weighs a split on a balance that holds the parent left behind, and rules out a parent no balance holds', () => {
+		// the micro balance above holds 60 mg; a semi-micro one (d = 10 µg, s = 1 µg: m_min = 2000·max(1, 4.1) = 8.2 mg) holds 200 g
+		const micro = { ...balance, capacityUg: 60_000 };
+		const semi: PlanBalance = { id: 'sm', name: 'semi-micro', minimumWeightUg: minimumWeight({ d: 10, s: 1 }), netUUg: netUncertainty({ d: 10, s: 1 }), capacityUg: 200_000_000 };
+		expect(semi.minimumWeightUg).toBe(8_200);
+		// a 1 mg piece from a 50 mg parent: on the micro balance (49 mg left behind fits under its 60 mg)
+		const small = planAllocation({ ...base, balances: [micro, semi], items: [item('A', 50_000)] });
+		expect(small.plans[0].steps[0]).toMatchObject({ balanceId: 'mb', parentAfterUg: 48_990 });
+		expect(small.plans[0].steps[0]).toMatchObject({ parentBalanceId: 'mb' });
+		// from a 90 mg parent: the 1 mg piece on the micro balance, the 88.99 mg left behind (above its
+		// 60 mg) reweighed on the semi-micro one, whose 8.2 mg minimum weight it keeps
+		const big = planAllocation({ ...base, balances: [micro, semi], items: [item('B', 90_000)] });
+		expect(big.plans[0].steps[0]).toMatchObject({ balanceId: 'mb', childrenUg: [1_000], parentAfterUg: 88_990, parentBalanceId: 'sm', parentMinimumWeightUg: 8_200 });
+		// with no balance that holds the parent, the parent is ruled out, saying so
+		const none = planAllocation({ ...base, balances: [micro, { ...semi, capacityUg: 80_000 }], items: [item('B', 90_000)] });
+		expect(none.plans).toEqual([]);
+		expect(none.ruledOut[0].reason).toBe('B holds 90.000 mg; no usable balance can reweigh the 88.990 mg it keeps after a 1.000 mg piece (the largest, semi-micro, holds 80.000 mg)');
 	});
 
 	it('refuses a piece below every balance’s minimum weight, and says so', () => {

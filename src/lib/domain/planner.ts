@@ -64,12 +64,14 @@ export interface PlanCandidate {
 	blankCoverage: number | null;
 }
 
-/** A usable balance (active, calibrated) with its net uncertainty and USP <41> minimum weight. */
+/** A usable balance (active, calibrated) with its net uncertainty, USP <41> minimum weight and capacity. */
 export interface PlanBalance {
 	id: string;
 	name: string;
 	minimumWeightUg: number;
 	netUUg: number;
+	/** the maximum load, µg; null or absent when not recorded (taken to hold anything) */
+	capacityUg?: number | null;
 }
 
 export interface PlanInput {
@@ -109,6 +111,10 @@ export interface PlanStep {
 	balanceId: string | null;
 	balanceName: string | null;
 	minimumWeightUg: number | null;
+	/** the balance the parent is reweighed on: the pieces' own, or one that holds the parent */
+	parentBalanceId: string | null;
+	parentBalanceName: string | null;
+	parentMinimumWeightUg: number | null;
 	expectedLossUg: number;
 	/** standard uncertainty of the measured loss, u_L = √(u₀² + u₁² + Σuᵢ²) (GUM 5.1.2, budget.ts) */
 	lossUUg: number;
@@ -171,6 +177,9 @@ interface Option {
 	childDepth: number;
 	/** for split: most pieces the item can give */
 	cap: number;
+	/** for split: the balance the pieces are weighed on, and the one the parent left behind is reweighed on */
+	balance: PlanBalance | null;
+	parentBalance: PlanBalance | null;
 	vector: number[];
 }
 
@@ -188,9 +197,23 @@ export function compareScores(a: Scores, b: Scores, order: readonly Criterion[])
 	return 0;
 }
 
-/** The balance for pieces of `pieceUg`: usable, m_min ≤ the piece, smallest net uncertainty. */
-export function chooseBalance(balances: readonly PlanBalance[], pieceUg: number): PlanBalance | null {
-	const fit = balances.filter((b) => b.minimumWeightUg <= pieceUg);
+/**
+ * The balance for pieces of `pieceUg`: usable, m_min ≤ the piece, holding `heaviestUg` (the
+ * heaviest load put on it, by default the piece) within its capacity, smallest net uncertainty.
+ */
+export function chooseBalance(balances: readonly PlanBalance[], pieceUg: number, heaviestUg = pieceUg): PlanBalance | null {
+	const fit = balances.filter((b) => b.minimumWeightUg <= pieceUg && (b.capacityUg == null || b.capacityUg >= heaviestUg));
+	fit.sort((x, y) => x.netUUg - y.netUUg || x.minimumWeightUg - y.minimumWeightUg || (x.name < y.name ? -1 : 1));
+	return fit[0] ?? null;
+}
+
+/**
+ * The balance the parent left behind (`afterUg`) is reweighed on: the pieces' balance when it holds
+ * it, else the finest usable balance that does (smallest net uncertainty); null when none holds it.
+ */
+export function parentBalanceFor(balances: readonly PlanBalance[], pieces: PlanBalance, afterUg: number): PlanBalance | null {
+	if (pieces.capacityUg == null || pieces.capacityUg >= afterUg) return pieces;
+	const fit = balances.filter((b) => b.capacityUg == null || b.capacityUg >= afterUg);
 	fit.sort((x, y) => x.netUUg - y.netUUg || x.minimumWeightUg - y.minimumWeightUg || (x.name < y.name ? -1 : 1));
 	return fit[0] ?? null;
 }
@@ -284,7 +307,6 @@ export function planAllocation(input: PlanInput): PlanResult {
 	const only = new Set(input.itemCodes);
 	const ruled: RuledOut[] = [];
 	const options: Option[] = [];
-	const mMin = balance?.minimumWeightUg ?? 0;
 	const wholeLow = Math.ceil(pieceUg * minShare);
 	let qualifying = 0;
 	input.items.forEach((item, index) => {
@@ -300,13 +322,26 @@ export function planAllocation(input: PlanInput): PlanResult {
 			return;
 		}
 		const e = exposureScore(item.exposure);
-		const cap = Math.max(0, Math.floor((item.massUg - loss - mMin) / pieceUg));
+		// the pieces go on `balance`; the parent left behind (heaviest with one piece cut) is reweighed
+		// on it too when it holds it, else on the finest balance that does
+		const own = parentBalanceFor(input.balances, balance, item.massUg - pieceUg - loss);
+		const mMin = (own ?? balance).minimumWeightUg;
+		const cap = own ? Math.max(0, Math.floor((item.massUg - loss - mMin) / pieceUg)) : 0;
 		const splitOk = cap >= 1 && pieceUg + loss <= input.budgetUg;
-		const wholeOk = item.massUg <= pieceUg && item.massUg >= wholeLow && item.massUg >= mMin && item.massUg <= input.budgetUg;
+		const wholeOk = item.massUg <= pieceUg && item.massUg >= wholeLow && item.massUg >= balance.minimumWeightUg && item.massUg <= input.budgetUg;
+		if (!splitOk && !wholeOk && !own) {
+			const roomiest = [...input.balances].sort((a, b) => (b.capacityUg ?? Infinity) - (a.capacityUg ?? Infinity))[0];
+			ruled.push({
+				code: item.code,
+				reason: `${item.code} holds ${formatMg(item.massUg)}; no usable balance can reweigh the ${formatMg(item.massUg - pieceUg - loss)} it keeps after a ${formatMg(pieceUg)} piece (the largest, ${roomiest.name}, holds ${formatMg(roomiest.capacityUg!)})`,
+				distance: roomiest.capacityUg ? (item.massUg - pieceUg - loss - roomiest.capacityUg) / item.massUg : 1
+			});
+			return;
+		}
 		if (!splitOk && !wholeOk) {
 			const need = pieceUg + loss + mMin;
 			const reason = item.massUg > pieceUg && item.massUg < need
-				? `${item.code} holds ${formatMg(item.massUg)}; cutting a ${formatMg(pieceUg)} piece needs ${formatMg(need)}, because the parent must keep at least the ${formatMg(mMin)} minimum weight of ${balance.name} and the split loses about ${formatMg(loss)}`
+				? `${item.code} holds ${formatMg(item.massUg)}; cutting a ${formatMg(pieceUg)} piece needs ${formatMg(need)}, because the parent must keep at least the ${formatMg(mMin)} minimum weight of ${(own ?? balance).name} and the split loses about ${formatMg(loss)}`
 				: item.massUg < wholeLow
 					? `${item.code} holds ${formatMg(item.massUg)}, less than a ${formatMg(pieceUg)} piece (a whole item must hold at least ${Math.round(minShare * 100)} % of it)`
 					: `${item.code} would take more than the ${formatMg(Math.max(0, input.budgetUg))} the collection can give without cutting into its reserve`;
@@ -316,18 +351,18 @@ export function planAllocation(input: PlanInput): PlanResult {
 		qualifying++;
 		if (splitOk) {
 			const v = [e, item.depth + 1, 1, item.massUg, pieceUg + loss, -cap];
-			options.push({ item, index, mode: 'split', e, childDepth: item.depth + 1, cap, vector: v });
+			options.push({ item, index, mode: 'split', e, childDepth: item.depth + 1, cap, balance, parentBalance: own, vector: v });
 		}
 		if (wholeOk) {
 			const v = [e, item.depth, 0, 0, item.massUg, -1];
-			options.push({ item, index, mode: 'whole', e, childDepth: item.depth, cap: 1, vector: v });
+			options.push({ item, index, mode: 'whole', e, childDepth: item.depth, cap: 1, balance: null, parentBalance: null, vector: v });
 		}
 	});
 	if (blocked.length) return result([], ruled, qualifying, []);
 
 	const kept = paretoLayers(options, maxPlans * pieces);
 	const keptItems = new Set(kept.map((o) => o.item.code));
-	const ctx: StepContext = { balance: balance!, loss, tolerance: input.tolerance };
+	const ctx: StepContext = { loss, tolerance: input.tolerance };
 	let plans: Omit<Plan, 'rank' | 'why' | 'gaveUp'>[];
 	if (!multi) {
 		plans = kept
@@ -351,7 +386,6 @@ export function planAllocation(input: PlanInput): PlanResult {
 }
 
 interface StepContext {
-	balance: PlanBalance;
 	loss: number;
 	tolerance: LossTolerance;
 }
@@ -361,24 +395,27 @@ function step(o: Option, count: number, ctx: StepContext, pieceUg: number): Plan
 	if (o.mode === 'whole') {
 		return {
 			parentCode: it.code, action: 'whole', childrenUg: [], toLabUg: it.massUg, parentBeforeUg: it.massUg, parentAfterUg: 0,
-			balanceId: null, balanceName: null, minimumWeightUg: null, expectedLossUg: 0, lossUUg: 0, depthAdded: 0, childDepth: it.depth,
+			balanceId: null, balanceName: null, minimumWeightUg: null, parentBalanceId: null, parentBalanceName: null, parentMinimumWeightUg: null, expectedLossUg: 0, lossUUg: 0, depthAdded: 0, childDepth: it.depth,
 			exposure: it.exposure, blankCoverage: it.blankCoverage
 		};
 	}
 	const childrenUg = Array.from({ length: count }, () => pieceUg);
 	const after = it.massUg - count * pieceUg - ctx.loss;
-	const u = ctx.balance.netUUg;
+	const bal = o.balance!;
+	const pb = o.parentBalance!;
+	const u = bal.netUUg;
 	// the split budget of DESIGN §3.3, as the split form and the server will check it
 	const b = splitBudget(
-		{ parentBefore: { massUg: it.massUg, u: it.uUg }, children: childrenUg.map((m) => ({ massUg: m, u })), parentAfter: { massUg: after, u } },
-		{ tolerance: ctx.tolerance, minimumWeightUg: ctx.balance.minimumWeightUg }
+		{ parentBefore: { massUg: it.massUg, u: it.uUg }, children: childrenUg.map((m) => ({ massUg: m, u })), parentAfter: { massUg: after, u: pb.netUUg } },
+		{ tolerance: ctx.tolerance, minimumWeightUg: bal.minimumWeightUg }
 	);
-	if (b.verdict === 'rejected' || b.belowMinimum.length || after < ctx.balance.minimumWeightUg) {
+	if (b.verdict === 'rejected' || b.belowMinimum.length || after < pb.minimumWeightUg || (bal.capacityUg != null && pieceUg > bal.capacityUg) || (pb.capacityUg != null && after > pb.capacityUg)) {
 		throw new Error(`planner: a split of ${it.code} into ${count} × ${pieceUg} µg does not pass the split budget`);
 	}
 	return {
 		parentCode: it.code, action: 'split', childrenUg, toLabUg: count * pieceUg, parentBeforeUg: it.massUg, parentAfterUg: after,
-		balanceId: ctx.balance.id, balanceName: ctx.balance.name, minimumWeightUg: ctx.balance.minimumWeightUg, expectedLossUg: ctx.loss, lossUUg: b.lossU,
+		balanceId: bal.id, balanceName: bal.name, minimumWeightUg: bal.minimumWeightUg,
+		parentBalanceId: pb.id, parentBalanceName: pb.name, parentMinimumWeightUg: pb.minimumWeightUg, expectedLossUg: ctx.loss, lossUUg: b.lossU,
 		depthAdded: 1, childDepth: it.depth + 1, exposure: it.exposure, blankCoverage: it.blankCoverage
 	};
 }

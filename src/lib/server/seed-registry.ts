@@ -31,9 +31,9 @@ function inDays(days: number): string {
 }
 
 export const DEMO_BALANCES = [
-	{ name: 'Tamberlow UM-1 ultramicro', model: 'ultramicro balance, 0.1 µg', location: 'Nitrogen glovebox A', d: 0.1, s: 0.25, dueDays: 150 },
-	{ name: 'Tamberlow MB-2 micro', model: 'microbalance, 1 µg', location: 'Nitrogen glovebox B', d: 1, s: 0.4, dueDays: 220 },
-	{ name: 'Vessant SM-3 semi-micro', model: 'semi-micro balance, 10 µg', location: 'Cleanroom 2', d: 10, s: 8, dueDays: 90 }
+	{ name: 'Tamberlow UM-1 ultramicro', model: 'ultramicro balance, 0.1 µg', location: 'Nitrogen glovebox A', d: 0.1, s: 0.25, capacity: 2_100_000, dueDays: 150 },
+	{ name: 'Tamberlow MB-2 micro', model: 'microbalance, 1 µg', location: 'Nitrogen glovebox B', d: 1, s: 0.4, capacity: 6_100_000, dueDays: 220 },
+	{ name: 'Vessant SM-3 semi-micro', model: 'semi-micro balance, 10 µg', location: 'Cleanroom 2', d: 10, s: 8, capacity: 220_000_000, dueDays: 90 }
 ] as const;
 
 /** A fixed pseudo-random sequence, so the demo trees come out the same on every fresh database. */
@@ -157,10 +157,17 @@ export async function seedRegistry(sq: Sequelize, log: (s: string) => void = () 
 			if (row) await appendTrail(sq, t, { actor: SYSTEM_ACTOR, action: 'collection.created', subjectType: 'collection', subjectId: row.id, after: c });
 		}
 		for (const b of DEMO_BALANCES) {
-			const found = await sq.query('SELECT 1 FROM balances WHERE lower(name) = lower(:name)', { type: QueryTypes.SELECT, replacements: { name: b.name }, transaction: t });
-			if (found.length) continue;
+			const found = await sq.query<{ id: string; capacity_ug: string | null }>('SELECT id, capacity_ug FROM balances WHERE lower(name) = lower(:name)', { type: QueryTypes.SELECT, replacements: { name: b.name }, transaction: t });
+			if (found.length) {
+				// a demo balance made before capacities were recorded gets the demo's capacity, once
+				if (found[0].capacity_ug === null) {
+					await sq.query('UPDATE balances SET capacity_ug = :capacity, updated_at = now() WHERE id = :id', { replacements: { id: found[0].id, capacity: b.capacity }, transaction: t });
+					await appendTrail(sq, t, { actor: SYSTEM_ACTOR, action: 'balance.updated', subjectType: 'balance', subjectId: found[0].id, before: { capacityUg: null }, after: { capacityUg: b.capacity } });
+				}
+				continue;
+			}
 			const [row] = await sq.query<{ id: string }>(
-				`INSERT INTO balances (name, model, location, readability_ug, repeatability_ug, calibration_due) VALUES (:name, :model, :location, :d, :s, :due) RETURNING id`,
+				`INSERT INTO balances (name, model, location, readability_ug, repeatability_ug, calibration_due, capacity_ug) VALUES (:name, :model, :location, :d, :s, :due, :capacity) RETURNING id`,
 				{ type: QueryTypes.SELECT, transaction: t, replacements: { ...b, due: inDays(b.dueDays) } }
 			);
 			await appendTrail(sq, t, { actor: SYSTEM_ACTOR, action: 'balance.created', subjectType: 'balance', subjectId: row.id, after: { ...b, due: inDays(b.dueDays) } });

@@ -12,6 +12,11 @@ export const load: PageServerLoad = async ({ locals }) => ({
 });
 
 const num = (v: FormDataEntryValue | null) => (v === null || String(v).trim() === '' ? undefined : Number(String(v).trim()));
+/** A capacity typed in grams, as whole µg (a capacity needs no finer step); empty: not recorded. */
+const gramsToUg = (v: FormDataEntryValue | null) => {
+	const g = num(v);
+	return g === undefined ? undefined : Number.isFinite(g) ? Math.round(g * 1e6) : g;
+};
 
 async function attempt(fn: () => Promise<unknown>, form: string, values: Record<string, unknown>) {
 	try {
@@ -28,10 +33,15 @@ export const actions: Actions = {
 		const f = await request.formData();
 		const values = {
 			name: String(f.get('name') ?? ''), model: String(f.get('model') ?? ''), location: String(f.get('location') ?? ''),
-			readabilityUg: num(f.get('readabilityUg')), repeatabilityUg: num(f.get('repeatabilityUg')), calibrationDue: String(f.get('calibrationDue') ?? '')
+			readabilityUg: num(f.get('readabilityUg')), repeatabilityUg: num(f.get('repeatabilityUg')), calibrationDue: String(f.get('calibrationDue') ?? ''),
+			capacityUg: gramsToUg(f.get('capacityG'))
 		};
 		const parsed = balanceInput.safeParse(values);
-		if (!parsed.success) return fail(422, { form: 'create', message: 'Check the marked fields.', fields: zodFields(parsed.error.issues), values });
+		if (!parsed.success) {
+			const fields = zodFields(parsed.error.issues);
+			if (fields.capacityUg) fields.capacityG = fields.capacityUg.replace(/µg/g, 'g, as µg');
+			return fail(422, { form: 'create', message: 'Check the marked fields.', fields, values: { ...values, capacityG: String(f.get('capacityG') ?? '') } });
+		}
 		return attempt(() => createBalance(models(), whoFrom(locals.user!), parsed.data), 'create', values);
 	},
 	calibrate: async ({ request, locals }) => {

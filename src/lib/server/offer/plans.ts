@@ -51,7 +51,7 @@ export async function planInput(sq: Sequelize, user: SessionUser, id: string, or
 	const summaries = (await offeredItems(sq, r.prefix)).map((x) => ({
 		code: x.code, kind: x.kind, massUg: x.massUg, uUg: x.uUg, depth: x.depth, exposure: x.exposure, blankCoverage: x.blankCoverage
 	}));
-	const balances = (await listBalances(sq)).filter((b) => b.usable).map((b) => ({ id: b.id, name: b.name, minimumWeightUg: b.minimumWeightUg, netUUg: b.netUUg }));
+	const balances = (await listBalances(sq)).filter((b) => b.usable).map((b) => ({ id: b.id, name: b.name, minimumWeightUg: b.minimumWeightUg, netUUg: b.netUUg, capacityUg: b.capacityUg }));
 	const massUg = granted ? Math.max(0, Number(r.granted_ug) - setAside) : Number(r.mass_ug);
 	const summary = (await offerSnapshot(sq)).collections.find((c) => c.prefix === r.prefix)!;
 	const input: PlanInput = {

@@ -1,6 +1,6 @@
 import { z } from 'zod';
 import { QueryTypes, type Sequelize, type Transaction } from 'sequelize';
-import { decimalsForReadability, expanded, minimumWeight, netUncertainty } from '../../domain/mass';
+import { decimalsForReadability, expanded, formatMg, minimumWeight, netUncertainty } from '../../domain/mass';
 import { ApiProblem } from '../api';
 import { appendTrail } from '../trail';
 import { shortText, trailActor, type Who } from './common';
@@ -13,12 +13,13 @@ interface BalanceRow {
 	readability_ug: string;
 	repeatability_ug: string;
 	calibration_due: string;
+	capacity_ug: string | null;
 	active: boolean;
 	overdue: boolean;
 }
 
 const COLUMNS = `id, name, model, location, readability_ug, repeatability_ug, to_char(calibration_due, 'YYYY-MM-DD') AS calibration_due,
-	active, calibration_due < current_date AS overdue`;
+	capacity_ug, active, calibration_due < current_date AS overdue`;
 
 /** A balance with what follows from its d and s: net uncertainty (GUM) and minimum weight (USP <41>). */
 export function balanceView(r: BalanceRow) {
@@ -32,6 +33,8 @@ export function balanceView(r: BalanceRow) {
 		readabilityUg: spec.d,
 		repeatabilityUg: spec.s,
 		calibrationDue: r.calibration_due,
+		/** the maximum load, µg; null when not recorded */
+		capacityUg: r.capacity_ug === null ? null : Number(r.capacity_ug),
 		active: r.active,
 		overdue: r.overdue,
 		usable: r.active && !r.overdue,
@@ -81,6 +84,7 @@ export const balanceInput = z.strictObject({
 	readabilityUg: positiveUg,
 	repeatabilityUg: z.number({ error: 'must be a number of µg' }).finite().min(0, 'cannot be negative').max(1e6, 'must be at most 1,000,000 µg'),
 	calibrationDue: isoDate,
+	capacityUg: z.number({ error: 'must be a whole number of µg' }).int('must be a whole number of µg').positive('must be more than 0 µg').max(1e12, 'must be at most 1,000,000,000,000 µg (1 t)').nullable().optional(),
 	active: z.boolean({ error: 'must be true or false' }).optional()
 });
 export type BalanceInput = z.infer<typeof balanceInput>;
@@ -97,14 +101,14 @@ export async function createBalance(sq: Sequelize, who: Who, input: BalanceInput
 	return sq
 		.transaction(async (t) => {
 			const [row] = await sq.query<BalanceRow>(
-				`INSERT INTO balances (name, model, location, readability_ug, repeatability_ug, calibration_due, active)
-				 VALUES (:name, :model, :location, :d, :s, :due, :active) RETURNING ${COLUMNS}`,
+				`INSERT INTO balances (name, model, location, readability_ug, repeatability_ug, calibration_due, capacity_ug, active)
+				 VALUES (:name, :model, :location, :d, :s, :due, :capacity, :active) RETURNING ${COLUMNS}`,
 				{
 					type: QueryTypes.SELECT,
 					transaction: t,
 					replacements: {
 						name: input.name, model: input.model ?? '', location: input.location ?? '', d: input.readabilityUg,
-						s: input.repeatabilityUg, due: input.calibrationDue, active: input.active ?? true
+						s: input.repeatabilityUg, due: input.calibrationDue, capacity: input.capacityUg ?? null, active: input.active ?? true
 					}
 				}
 			);
@@ -125,13 +129,13 @@ export async function updateBalance(sq: Sequelize, who: Who, id: string, patch: 
 			const next = { ...before, ...patch };
 			const [row] = await sq.query<BalanceRow>(
 				`UPDATE balances SET name = :name, model = :model, location = :location, readability_ug = :d, repeatability_ug = :s,
-				 calibration_due = :due, active = :active, updated_at = now() WHERE id = :id RETURNING ${COLUMNS}`,
+				 calibration_due = :due, capacity_ug = :capacity, active = :active, updated_at = now() WHERE id = :id RETURNING ${COLUMNS}`,
 				{
 					type: QueryTypes.SELECT,
 					transaction: t,
 					replacements: {
 						id, name: next.name, model: next.model, location: next.location, d: next.readabilityUg, s: next.repeatabilityUg,
-						due: next.calibrationDue, active: next.active
+						due: next.calibrationDue, capacity: next.capacityUg ?? null, active: next.active
 					}
 				}
 			);
@@ -140,4 +144,16 @@ export async function updateBalance(sq: Sequelize, who: Who, id: string, patch: 
 			return after;
 		})
 		.catch(uniqueName);
+}
+
+/**
+ * Refuses a weighing above the balance's capacity (its maximum load): `loads` are the masses put on
+ * it, by the field that gave each (gross, with any tare).
+ */
+export function checkCapacity(balance: BalanceView, loads: { field: string; ug: number }[]): void {
+	if (balance.capacityUg === null) return;
+	const over = loads.filter((l) => l.ug > balance.capacityUg!);
+	if (!over.length) return;
+	const fields = Object.fromEntries(over.map((l) => [l.field, `${formatMg(l.ug)} is above the capacity of ${balance.name} (${formatMg(balance.capacityUg!)})`]));
+	throw new ApiProblem(422, 'above_capacity', `${over[0].field}: ${formatMg(over[0].ug)} is above the capacity of ${balance.name}, ${formatMg(balance.capacityUg)}; weigh it on a balance that holds it.`, fields);
 }

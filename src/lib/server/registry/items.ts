@@ -6,7 +6,7 @@ import { ApiProblem } from '../api';
 import { labFilter } from '../auth/scope';
 import { appendTrail } from '../trail';
 import { ITEM_STATES } from '../models/registry';
-import { balanceForWeighing } from './balances';
+import { balanceForWeighing, checkCapacity } from './balances';
 import { ITEM_COLUMNS, ITEM_FROM, findItem, itemView, micrograms, shortText, takeSerials, trailActor, type ItemRow, type Who } from './common';
 
 export const registerInput = z.strictObject({
@@ -38,6 +38,7 @@ export async function registerInTransaction(sq: Sequelize, t: Transaction, who: 
 	});
 	if (!col) throw new ApiProblem(422, 'unknown_collection', `collection: there is no collection with prefix ${input.collection}.`, { collection: 'no such collection' });
 	const balance = input.weighing ? await balanceForWeighing(sq, t, input.weighing.balanceId, 'weighing.balanceId') : null;
+	if (balance) checkCapacity(balance, [{ field: 'massUg', ug: input.massUg + (input.weighing!.tareUg ?? 0) }]);
 	const below = balance ? input.massUg < balance.minimumWeightUg : false;
 	if (below && !input.weighing?.reason) {
 		throw new ApiProblem(422, 'reason_required', `${input.massUg} µg is below the minimum weight of ${balance!.minimumWeightUg} µg on ${balance!.name} (USP <41>): record a reason.`, {

@@ -7,7 +7,7 @@ import { ApiProblem } from '../api';
 import { preparedQuery } from '../prepared';
 import { trailRowOf, trailStatement } from '../trail';
 import { checkSplitSession } from '../handling/split-sessions';
-import { balanceForWeighing, type BalanceView } from './balances';
+import { balanceForWeighing, checkCapacity, type BalanceView } from './balances';
 import { findItem, micrograms, shortText, trailActor, type ItemRow, type Who } from './common';
 
 export const MAX_CHILDREN = 200;
@@ -28,6 +28,9 @@ export const splitInput = z.strictObject({
 		.max(MAX_CHILDREN, `at most ${MAX_CHILDREN} children in one split`),
 	parentAfterUg: micrograms({ allowZero: true }).optional(),
 	balanceId: z.string({ error: 'must be a balance id' }).optional(),
+	// the balance the parent is reweighed on, when it is another than the children's (a parent too
+	// heavy for the balance that weighs small children); by default the children's
+	parentBalanceId: z.string({ error: 'must be a balance id' }).optional(),
 	reason: shortText(2000).optional(),
 	// the handling session the split happened in; without one the split is flagged until one is attached
 	handlingSessionId: z.string({ error: 'must be a handling session id' }).optional()
@@ -76,7 +79,10 @@ function refuse(budget: SplitBudget, parent: ItemRow, reason: string | undefined
  * appends the trail event. Two splits of one parent queue on the lock and never spend the same µg.
  */
 export async function splitItem(sq: Sequelize, who: Who, parentCode: string, input: SplitRequest) {
-	if (input.parentAfterUg !== undefined && input.balanceId === undefined) {
+	if (input.parentBalanceId !== undefined && input.parentAfterUg === undefined) {
+		throw new ApiProblem(422, 'invalid_input', 'parentBalanceId: names the balance the parent was reweighed on; give parentAfterUg with it.', { parentAfterUg: 'is required with parentBalanceId' });
+	}
+	if (input.parentAfterUg !== undefined && input.balanceId === undefined && input.parentBalanceId === undefined) {
 		throw new ApiProblem(422, 'invalid_input', 'parentAfterUg: a reweighed parent needs the balanceId it was weighed on.', { balanceId: 'is required with parentAfterUg' });
 	}
 	if (input.balanceId === undefined && input.children.some((c) => c.tareUg !== undefined)) {
@@ -90,13 +96,18 @@ export async function splitItem(sq: Sequelize, who: Who, parentCode: string, inp
 			});
 		}
 		const balance: BalanceView | null = input.balanceId === undefined ? null : await balanceForWeighing(sq, t, input.balanceId);
+		// the parent's reweighing: on its own balance when one is named, else on the children's
+		const parentBalance: BalanceView | null =
+			input.parentAfterUg === undefined ? null : input.parentBalanceId === undefined || input.parentBalanceId === input.balanceId ? balance : await balanceForWeighing(sq, t, input.parentBalanceId, 'parentBalanceId');
+		if (balance) checkCapacity(balance, input.children.map((c, i) => ({ field: `children.${i}.massUg`, ug: c.massUg + (c.tareUg ?? 0) })));
+		if (parentBalance) checkCapacity(parentBalance, [{ field: 'parentAfterUg', ug: input.parentAfterUg! }]);
 		const u0 = parent.mass_u_ug ?? 0;
 		const uChild = balance ? balance.netUUg : 0;
 		const budget = splitBudget(
 			{
 				parentBefore: { massUg: parent.mass_ug, u: u0 },
 				children: input.children.map((c) => ({ massUg: c.massUg, u: uChild })),
-				parentAfter: input.parentAfterUg === undefined ? null : { massUg: input.parentAfterUg, u: balance!.netUUg }
+				parentAfter: input.parentAfterUg === undefined ? null : { massUg: input.parentAfterUg, u: parentBalance!.netUUg }
 			},
 			{ tolerance: toleranceOf(parent), ...(balance ? { minimumWeightUg: balance.minimumWeightUg } : {}) }
 		);
@@ -105,7 +116,7 @@ export async function splitItem(sq: Sequelize, who: Who, parentCode: string, inp
 		if (input.handlingSessionId !== undefined) await checkSplitSession(sq, t, input.handlingSessionId, parent.id, parent.code);
 
 		// uncertainty of the parent's recorded mass after: measured, or propagated (GUM 5.1.2)
-		const uAfter = budget.reweighed ? balance!.netUUg : Math.sqrt(u0 * u0 + input.children.length * uChild * uChild);
+		const uAfter = budget.reweighed ? parentBalance!.netUUg : Math.sqrt(u0 * u0 + input.children.length * uChild * uChild);
 		const splitId = randomUUID();
 
 		// The children's serials and codes are taken from the collection's counter by the statement that
@@ -126,14 +137,15 @@ export async function splitItem(sq: Sequelize, who: Who, parentCode: string, inp
 			belowMinimum: budget.belowMinimum.includes(i),
 			weighingId: balance ? randomUUID() : null
 		}));
-		const parentWeighingId = balance && budget.reweighed ? randomUUID() : null;
-		interface WeighingRow { id: string | null; item: string; purpose: string; gross: number; tare: number; net: number; below: boolean; reason: string | null | undefined }
+		const parentWeighingId = parentBalance && budget.reweighed ? randomUUID() : null;
+		interface WeighingRow { id: string | null; item: string; purpose: string; gross: number; tare: number; net: number; below: boolean; reason: string | null | undefined; balance: string; u: number; uu: number; min: number }
+		const on = (b: BalanceView) => ({ balance: b.id, u: b.netUUg, uu: b.netExpandedUg, min: b.minimumWeightUg });
 		const weighings: WeighingRow[] = balance
-			? children.map((c) => ({ id: c.weighingId, item: c.id, purpose: 'split_child', gross: c.massUg + c.tareUg, tare: c.tareUg, net: c.massUg, below: c.belowMinimum, reason: c.belowMinimum ? reason : null }))
+			? children.map((c) => ({ id: c.weighingId, item: c.id, purpose: 'split_child', gross: c.massUg + c.tareUg, tare: c.tareUg, net: c.massUg, below: c.belowMinimum, reason: c.belowMinimum ? reason : null, ...on(balance) }))
 			: [];
-		if (balance && parentWeighingId) {
-			const below = budget.parentAfterUg < balance.minimumWeightUg;
-			weighings.push({ id: parentWeighingId, item: parent.id, purpose: 'split_parent_after', gross: budget.parentAfterUg, tare: 0, net: budget.parentAfterUg, below, reason: below ? (reason ?? 'parent remainder below the minimum weight') : null });
+		if (parentBalance && parentWeighingId) {
+			const below = budget.parentAfterUg < parentBalance.minimumWeightUg;
+			weighings.push({ id: parentWeighingId, item: parent.id, purpose: 'split_parent_after', gross: budget.parentAfterUg, tare: 0, net: budget.parentAfterUg, below, reason: below ? (reason ?? 'parent remainder below the minimum weight') : null, ...on(parentBalance) });
 		}
 
 		// ledger: the parent gives each child its mass, then the measured loss; each child starts with its
@@ -179,6 +191,7 @@ export async function splitItem(sq: Sequelize, who: Who, parentCode: string, inp
 			handlingSessionId: input.handlingSessionId ?? null,
 			issues: budget.issues.map((i) => i.message),
 			balance: balance ? { id: balance.id, name: balance.name } : null,
+			...(parentBalance && parentBalance !== balance ? { parentBalance: { id: parentBalance.id, name: parentBalance.name } } : {}),
 			children: children.map((c) => ({ code: c.mark, massUg: c.massUg, uUg: c.uUg, belowMinimum: c.belowMinimum }))
 		};
 		// the change and its trail event in one round trip: the split's statement, then the trail's
@@ -214,9 +227,9 @@ export async function splitItem(sq: Sequelize, who: Who, parentCode: string, inp
 				       CAST(:split AS uuid), CAST(:op AS uuid) FROM k
 			), w AS (
 				INSERT INTO weighings (id, item_id, balance_id, purpose, gross_ug, tare_ug, net_ug, u_ug, expanded_ug, minimum_weight_ug, below_minimum, reason, split_id, operator_id)
-				SELECT x.id, x.item, CAST(:balance AS uuid), x.purpose, x.gross, x.tare, x.net, CAST(:u AS double precision), CAST(:U AS double precision), CAST(:min AS bigint),
+				SELECT x.id, x.item, x.balance, x.purpose, x.gross, x.tare, x.net, x.u, x.uu, x.min,
 				       x.below, x.reason, CAST(:split AS uuid), CAST(:op AS uuid)
-				FROM jsonb_to_recordset(CAST(:weighings AS jsonb)) AS x(id uuid, item uuid, purpose text, gross bigint, tare bigint, net bigint, below boolean, reason text)
+				FROM jsonb_to_recordset(CAST(:weighings AS jsonb)) AS x(id uuid, item uuid, purpose text, gross bigint, tare bigint, net bigint, below boolean, reason text, balance uuid, u double precision, uu double precision, min bigint)
 			), l AS (
 				INSERT INTO ledger_entries (item_id, seq, kind, delta_ug, balance_after_ug, u_after_ug, split_id, weighing_id, counterpart_id, note, actor_id)
 				SELECT x.item, x.seq + CASE WHEN x.own THEN base.seq ELSE 0 END, x.kind, x.delta, x.after, x.u, CAST(:split AS uuid), x.weighing, x.counterpart,
@@ -233,8 +246,8 @@ export async function splitItem(sq: Sequelize, who: Who, parentCode: string, inp
 				at,
 				split: splitId, parent: parent.id, balance: balance?.id ?? null, p0: parent.mass_ug, p1: budget.parentAfterUg, total: budget.childrenTotalUg,
 				loss: budget.lossUg, lossU: budget.lossU, reweighed: budget.reweighed, verdict: budget.verdict, reason: reason ?? null, op: who.id, session: input.handlingSessionId ?? null,
-				collection: parent.collection_id, depth: parent.depth + 1, u: balance?.netUUg ?? 0, U: balance?.netExpandedUg ?? 0, min: balance?.minimumWeightUg ?? 0,
-				uAfter: parent.mass_u_ug === null && !balance ? null : uAfter,
+				collection: parent.collection_id, depth: parent.depth + 1,
+				uAfter: parent.mass_u_ug === null && !balance && !parentBalance ? null : uAfter,
 				n,
 				children: JSON.stringify(children.map((c) => ({ id: c.id, ord: c.ord, description: c.description, mass: c.massUg, u: c.uUg, container: c.container, storage: c.storagePlace }))),
 				weighings: JSON.stringify(weighings),
