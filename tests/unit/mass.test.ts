@@ -1,6 +1,7 @@
 import { describe, it, expect } from 'vitest';
 import fc from 'fast-check';
 import {
+	formatCapacity,
 	MassInputError,
 	assertMicrograms,
 	decimalsForReadability,
@@ -110,6 +111,15 @@ describe('formatMg', () => {
 				expect(Math.abs(shown - ug / 1000)).toBeLessThanOrEqual(0.5 * 10 ** -dec + 1e-6);
 			})
 		);
+	});
+});
+
+describe('formatCapacity', () => {
+	it('writes a capacity in grams without trailing zeros', () => {
+		expect(formatCapacity(2_100_000)).toBe('2.1 g');
+		expect(formatCapacity(220_000_000)).toBe('220 g');
+		expect(formatCapacity(1)).toBe('0.000001 g');
+		expect(formatCapacity(1_234_567_000_000)).toBe('1,234,567 g');
 	});
 });
 

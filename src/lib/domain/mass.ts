@@ -164,3 +164,8 @@ export function assertMicrograms(
 		throw new MassInputError(field, `${field} must be ${options.allowZero ? 'zero or more' : 'more than zero'}, got ${value} µg`);
 	}
 }
+
+/** A balance's capacity (µg) in grams for people, e.g. 2 100 000 µg → "2.1 g": a maximum load, not a measured mass. */
+export function formatCapacity(ug: number): string {
+	return `${(ug / 1e6).toLocaleString('en-GB', { maximumFractionDigits: 6 })} g`;
+}
