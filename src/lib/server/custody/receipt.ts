@@ -1,17 +1,10 @@
-import PDFDocument from 'pdfkit';
-import { createRequire } from 'node:module';
-import { dirname, join } from 'node:path';
 import { formatMg } from '../../domain/mass';
 import { coolantCaution } from '../../cautions';
 import type { getTransfer } from './transfers';
+import { a4Pdf } from '../pdf';
 
 type TransferData = Awaited<ReturnType<typeof getTransfer>>;
 
-const require = createRequire(import.meta.url);
-function fontFile(weight: 400 | 700): string {
-	const dir = dirname(require.resolve('@fontsource/atkinson-hyperlegible/package.json'));
-	return join(dir, 'files', `atkinson-hyperlegible-latin-${weight}-normal.woff`);
-}
 
 /** Subscript digits (CO₂) as plain ones: the embedded font has no subscript glyphs. */
 const plainDigits = (s: string) => s.replace(/[\u2080-\u2089]/g, (c) => String.fromCharCode(c.charCodeAt(0) - 0x2080 + 0x30));
@@ -40,14 +33,7 @@ function cautionBox(doc: PDFKit.PDFDocument, title: string[], lines: string[]) {
 
 /** The custody receipt of one transfer: manifest, dry-ice mass and the coolant's caution, every signature's manifestation and the manifest hash. */
 export function receiptPdf(d: TransferData): Promise<Buffer> {
-	return new Promise((resolve, reject) => {
-		const doc = new PDFDocument({ size: 'A4', margin: 50, info: { Title: `Custody receipt ${d.transfer.number}`, Producer: 'Regolog' } });
-		const chunks: Buffer[] = [];
-		doc.on('data', (c: Buffer) => chunks.push(c));
-		doc.on('end', () => resolve(Buffer.concat(chunks)));
-		doc.on('error', reject);
-		doc.registerFont('body', fontFile(400));
-		doc.registerFont('bold', fontFile(700));
+	return a4Pdf(`Custody receipt ${d.transfer.number}`, (doc) => {
 		const x = d.transfer;
 		// the facility's side of the transfer carries the `facility.name` setting
 		const facility = (x.direction === 'outbound' ? x.from.name : x.to.name) ?? '';

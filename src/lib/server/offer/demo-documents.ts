@@ -1,32 +1,21 @@
 // Demo documents on a piece on offer, so the offer shows what a lab may read before it asks:
 // a characterisation sheet (PDF) and a bulk chromatogram (CSV) of HLF fragment F1. Every value is
 // invented for the demo (DESIGN.md, demo scenario).
-import PDFDocument from 'pdfkit';
-import { createRequire } from 'node:module';
-import { dirname, join } from 'node:path';
 import { QueryTypes, type Sequelize } from 'sequelize';
 import { ApiProblem } from '../api';
 import { formatMg } from '../../domain/mass';
 import { facilityName } from '../facility';
 import { storeDocument } from '../documents/store';
 import type { Who } from '../registry/common';
+import { a4Pdf } from '../pdf';
 import { itemPath } from '../../domain/codes';
 
-const require = createRequire(import.meta.url);
-const font = (weight: 400 | 700) => join(dirname(require.resolve('@fontsource/atkinson-hyperlegible/package.json')), 'files', `atkinson-hyperlegible-latin-${weight}-normal.woff`);
 
 export const DEMO_SHEET_NAME = 'F1-characterisation-sheet.pdf';
 export const DEMO_CHROMATOGRAM_NAME = 'F1-bulk-chromatogram.csv';
 
 function sheetPdf(facility: string, code: string, massUg: number): Promise<Buffer> {
-	return new Promise((resolve, reject) => {
-		const doc = new PDFDocument({ size: 'A4', margin: 50, info: { Title: `Characterisation sheet ${code}`, Producer: 'Regolog' } });
-		const chunks: Buffer[] = [];
-		doc.on('data', (c: Buffer) => chunks.push(c));
-		doc.on('end', () => resolve(Buffer.concat(chunks)));
-		doc.on('error', reject);
-		doc.registerFont('body', font(400));
-		doc.registerFont('bold', font(700));
+	return a4Pdf(`Characterisation sheet ${code}`, (doc) => {
 		doc.font('bold').fontSize(18).fillColor('#0f2e2c').text(`Characterisation sheet ${code}`);
 		doc.font('body').fontSize(10).fillColor('#3f3c34').text(`${facility} · demo document, invented values`);
 		doc.moveDown();
