@@ -176,6 +176,8 @@ describe('allocation plans for the demo requests in review', () => {
 				const split = await curator.post(`/api/items/${s.parentCode}/splits`, {
 					children: s.childrenUg.map((massUg: number) => ({ massUg, container: 'PTFE vial, crimp-sealed' })),
 					balanceId: s.balanceId,
+					// the parent reweighed where the plan says: on the pieces' balance, or on one that holds it
+					parentBalanceId: s.parentBalanceId,
 					parentAfterUg: s.parentAfterUg,
 					reason: 'Split as planned by the allocation planner'
 				});
