@@ -9,6 +9,7 @@ import { hashPassword, passwordProblem, verifyPassword } from './auth/password';
 import { newSecret, sha256hex, createApiToken } from './auth/tokens';
 import { lucia } from './auth/lucia';
 import { ApiProblem } from './api';
+import { config } from './config';
 import { ROLES, ROLE_LABELS, type Role, type SessionUser } from './auth/types';
 import { plainText, emailField, uuidField } from './validation';
 
@@ -103,6 +104,40 @@ export async function inviteUser(actor: SessionUser, input: z.infer<typeof invit
 			after: { email: user.email, name: user.name, role: user.role, labId: user.labId }
 		});
 		return user;
+	});
+}
+
+export const firstAdminSchema = z.object({ email: emailField, name: plainText('Name', 1, 120) }).strict();
+
+/**
+ * The first administrator of a database that has none (a new production install, where the demo's
+ * accounts are not made): an invitation as an invited account gets it, queued as mail and answered
+ * so the command line can print its link. Refused once any administrator exists (they invite the
+ * rest from the accounts page). The trail names the command line as the actor.
+ */
+export async function createFirstAdmin(input: z.infer<typeof firstAdminSchema>): Promise<{ user: User; link: string }> {
+	const sequelize = models();
+	return sequelize.transaction(async (t) => {
+		// two commands at once: one waits for the other, then sees its administrator
+		await sequelize.query(`SELECT pg_advisory_xact_lock(hashtext('regolog.first-admin'))`, { transaction: t });
+		const admins = await User.count({ where: { role: 'admin' }, transaction: t });
+		if (admins > 0) throw new ApiProblem(409, 'conflict', 'An administrator exists already: invite further accounts from the accounts page.');
+		const taken = await User.findOne({ where: { email: input.email }, transaction: t });
+		if (taken) throw new ApiProblem(409, 'conflict', 'An account with this e-mail address exists already.', { email: 'An account with this e-mail address exists already.' });
+		const user = await User.create({ email: input.email, name: input.name, role: 'admin', labId: null, passwordHash: null, deactivatedAt: null }, { transaction: t });
+		const secret = newSecret();
+		await EmailToken.create(
+			{ userId: user.id, purpose: 'invite', tokenHash: sha256hex(secret), expiresAt: new Date(Date.now() + INVITE_HOURS * 3600_000), usedAt: null, createdBy: null },
+			{ transaction: t }
+		);
+		const facility = await facilityName(sequelize, t);
+		const mail = inviteMail(input.name, ROLE_LABELS.admin, secret, `The ${facility} installation`, facility);
+		await enqueueMail(t, { to: input.email, ...mail, kind: 'invite' });
+		await appendTrail(sequelize, t, {
+			actor: { id: null, label: 'command line (first administrator)' }, action: 'user.invited', subjectType: 'user', subjectId: user.id,
+			after: { email: user.email, name: user.name, role: user.role, labId: null }
+		});
+		return { user, link: `${config.origin}/invite/${secret}` };
 	});
 }
 
