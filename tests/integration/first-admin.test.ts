@@ -13,7 +13,7 @@ function run(...args: string[]) {
 	const r = spawnSync(process.execPath, ['--import', 'tsx', 'scripts/first-admin.ts', ...args], { encoding: 'utf8', env: { ...process.env, REGOLOG_DB_NAME: scratch.name } });
 	return { status: r.status, out: r.stdout, err: r.stderr };
 }
-const one = <T,>(sql: string) => scratch.sequelize.query<T>(sql, { type: QueryTypes.SELECT });
+const one = <T extends object>(sql: string) => scratch.sequelize.query<T>(sql, { type: QueryTypes.SELECT });
 
 describe('npm run admin:first', () => {
 	it('refuses bad use, naming the option, and writes nothing', async () => {
