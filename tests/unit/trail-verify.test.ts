@@ -203,6 +203,7 @@ describe('bundles', () => {
 		['two events swapped', (l) => l.map((x, i) => (i === lineOf(25) ? l[lineOf(26)] : i === lineOf(26) ? l[lineOf(25)] : x)), 25, /event 25 is missing/],
 		['a forged checkpoint', (l) => l.map((x) => (x.includes('"seq":20,"signed"') || x.startsWith('{"type":"checkpoint","seq":20') ? x.replace(/"signature":"[^"]+"/, `"signature":"${Buffer.alloc(64, 7).toString('base64')}"`) : x)), 20, /signature does not verify/],
 		['a checkpoint signed by an unknown key', (l) => l.map((x) => (x.startsWith('{"type":"checkpoint","seq":30') ? JSON.stringify({ type: 'checkpoint', ...checkpointAt(events, 30, 'aaaaaaaaaaaaaaaa', generateKeyPairSync('ed25519').privateKey) }) : x)), 30, /unknown key "aaaaaaaaaaaaaaaa"/],
+		['the stored hash of a checkpointed event changed', (l) => l.map((x, i) => (i === lineOf(20) ? x.replace(/"hash":"(.)/, (_, c) => `"hash":"${c === '0' ? '1' : '0'}`) : x)), 20, /content does not match its hash/],
 		['a bundle truncated mid-line', (l) => [...l.slice(0, lineOf(33)), l[lineOf(33)].slice(0, 90)], 33, /ends in the middle of event 33/],
 		['a bundle cut at a line boundary', (l) => [...l.slice(0, lineOf(36)), ''], 36, /ends before its end line/]
 	];
@@ -287,7 +288,7 @@ describe('bundles', () => {
 					if (want !== null) expect(r.events).toBe(want - 1);
 				}
 			}),
-			{ numRuns: 150 }
+			{ numRuns: 300 }
 		);
 		// every changed byte breaks the chain; the count shows the cases were not skipped
 		expect(broken).toBeGreaterThan(100);

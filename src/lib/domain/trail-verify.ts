@@ -268,9 +268,14 @@ export interface BundleResult {
 	head: string | null;
 }
 
-/** A finding of the reading pass; `afterHash`: the event's own hash is checked before it. */
+/**
+ * A finding of the reading pass. `afterHash`: it was made at event `event` by a check that comes
+ * after that event's hash check, so the hash is checked first. `at` may be earlier than `event`: a
+ * checkpoint that no longer matches names the first event after the last one that did.
+ */
 interface ReadBreak extends Break {
 	afterHash: boolean;
+	event: number;
 }
 
 /** Events read from one buffer, waiting for their hashes to be checked. */
@@ -419,8 +424,8 @@ export class BundleVerifier {
 		await this.startBatch();
 	}
 
-	private failRead(at: number, reason: string, afterHash = false) {
-		if (!this.readBreak) this.readBreak = { at, reason, afterHash };
+	private failRead(at: number, reason: string, afterHash = false, event = at) {
+		if (!this.readBreak) this.readBreak = { at, reason, afterHash, event };
 	}
 
 	private line(buf: Uint8Array, s: number, e: number): void | Promise<void> {
@@ -534,7 +539,7 @@ export class BundleVerifier {
 			if (cp) {
 				if (!hexEq(buf, hashAt, cp.hash)) {
 					const r = rewrittenBreak(seq, this.lastGood);
-					this.failRead(r.at, r.reason, true);
+					this.failRead(r.at, r.reason, true, seq);
 				} else {
 					this.lastGood = seq;
 					this.matchedSeqs.push(seq);
@@ -565,7 +570,7 @@ export class BundleVerifier {
 		const digests = await b.digests!;
 		b.digests = null;
 		if (this.chainBreak) return;
-		const stop = this.readBreak?.afterHash ? this.readBreak.at : Infinity;
+		const stop = this.readBreak?.afterHash ? this.readBreak.event : Infinity;
 		for (let k = 0; k < b.n; k++) {
 			const seq = b.seq0 + k;
 			if (!hexAt(b.stored, 64 * k, digests, 32 * k)) {
