@@ -39,7 +39,11 @@ export const actions: Actions = {
 		const parsed = balanceInput.safeParse(values);
 		if (!parsed.success) {
 			const fields = zodFields(parsed.error.issues);
-			if (fields.capacityUg) fields.capacityG = fields.capacityUg.replace(/µg/g, 'g, as µg');
+			// the form asks for grams: its own words for the field it shows
+			if (fields.capacityUg) {
+				fields.capacityG = 'must be a number of grams above 0, e.g. 220 or 2.1';
+				delete fields.capacityUg;
+			}
 			return fail(422, { form: 'create', message: 'Check the marked fields.', fields, values: { ...values, capacityG: String(f.get('capacityG') ?? '') } });
 		}
 		return attempt(() => createBalance(models(), whoFrom(locals.user!), parsed.data), 'create', values);
